@@ -1,1 +1,10 @@
-"""placeholder"""
+"""Response (layer: response): Lehmann sums, chi(omega), chi(t), static isothermal and isolated
+susceptibilities, pole tables, presentable forms.
+
+Imports sympy, :mod:`symresp.conventions`, :mod:`symresp.errors`, :mod:`symresp.algebra`,
+:mod:`symresp.models`, :mod:`symresp.spectrum`.
+"""
+
+from ._derive import Derivation, Level, StaticKind, Transition, derive, present
+
+__all__ = ["Derivation", "Level", "Transition", "StaticKind", "derive", "present"]

@@ -1,1 +1,10 @@
-"""placeholder"""
+"""Spectrum (layer: spectrum): symmetry blocks, exact eigen-solution per block, eigenspace weights.
+
+Imports sympy, python-flint, :mod:`symresp.errors`, :mod:`symresp.algebra`, :mod:`symresp.models`.
+"""
+
+from ._blocks import Block, BlockStructure, QuantumNumber, decompose
+from ._solve import BlockSolution, Factor, Part, Spectrum, clean, solve
+
+__all__ = ["Block", "BlockStructure", "QuantumNumber", "decompose", "BlockSolution", "Factor",
+           "Part", "Spectrum", "clean", "solve"]

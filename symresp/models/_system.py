@@ -1,0 +1,260 @@
+r"""The physical system: Hamiltonian, sites, sector and named observables (layer: models).
+
+Owns :class:`System`, the validated description of a model that every derivation starts from,
+and :class:`Budget`. Imports sympy, :mod:`symresp.errors`, :mod:`symresp.conventions` and
+:mod:`symresp.algebra`.
+
+A *sector* restricts the Hilbert space to a joint eigenspace of operators that commute with H
+and are diagonal in the product basis (particle numbers, total :math:`S^z`, ...): the
+canonical ensemble at fixed values of those quantities.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass, field
+
+import sympy as sp
+
+from ..algebra import Basis, Operator, Site, as_operator, commutator, dagger, sparse_form
+from ..conventions import RESERVED_NAMES
+from ..errors import BudgetExceeded, InputError, NotConservedError, NotHermitianError
+
+__all__ = ["System", "Budget", "is_diagonal"]
+
+
+@dataclass(frozen=True, slots=True)
+class Budget:
+    """Limits on the expensive steps of a derivation.
+
+    Parameters
+    ----------
+    seconds : float
+        Wall-clock limit for the whole derivation.
+    max_symbolic_block : int
+        Largest block whose entries mix several parameters (no common scale) that is solved
+        symbolically.
+    max_block : int
+        Largest block solved exactly at all.
+
+    Examples
+    --------
+    >>> from symresp.models import Budget
+    >>> Budget().seconds
+    600.0
+    """
+
+    seconds: float = 600.0
+    max_symbolic_block: int = 8
+    max_block: int = 400
+
+    def __post_init__(self) -> None:
+        if not (isinstance(self.seconds, (int, float)) and self.seconds > 0):
+            raise InputError(f"Budget: seconds={self.seconds!r} must be a positive number")
+        for name in ("max_symbolic_block", "max_block"):
+            v = getattr(self, name)
+            if not isinstance(v, int) or v < 1:
+                raise InputError(f"Budget: {name}={v!r} must be a positive integer")
+
+    def start(self) -> Clock:
+        """A running clock for one derivation."""
+        return Clock(self, time.monotonic() + float(self.seconds))
+
+
+@dataclass(frozen=True, slots=True)
+class Clock:
+    """A budget with its deadline; ``check`` raises BudgetExceeded once the deadline passes."""
+
+    budget: Budget
+    deadline: float
+
+    def check(self, step: str, where: str = "") -> None:
+        """Raise :class:`BudgetExceeded` naming ``step`` and ``where`` if time is up."""
+        if time.monotonic() > self.deadline:
+            at = f" in {where}" if where else ""
+            raise BudgetExceeded(
+                f"the derivation ran out of its time budget ({self.budget.seconds:g} s) during "
+                f"{step}{at}; raise Budget(seconds=...) or reduce the model (symmetry sector, "
+                f"fewer sites, numeric values for some parameters)"
+            )
+
+
+def is_diagonal(op: Operator) -> bool:
+    """True when ``op`` is diagonal in the product basis (only number-like local factors)."""
+    for mono, _ in op.terms:
+        for _, key in mono:
+            if key[1] != key[2]:
+                return False
+    return True
+
+
+def _check_parameters(symbols: Iterable[sp.Symbol], where: str) -> None:
+    for s in symbols:
+        if s.name in RESERVED_NAMES:
+            raise InputError(
+                f"{where}: the parameter name {s.name!r} is reserved by symresp "
+                f"(reserved: {', '.join(sorted(RESERVED_NAMES))}); rename it"
+            )
+
+
+@dataclass(frozen=True, slots=True)
+class System:
+    """Validated model data: Hamiltonian, all sites, sector and named observables.
+
+    Parameters
+    ----------
+    hamiltonian : Operator
+        Must be Hermitian for all real parameter values.
+    sector : tuple of (Operator, value)
+        Conserved diagonal operators and the eigenvalue each is fixed to.
+    observables : tuple of (name, Operator)
+        Named operators, usable by name in responses.
+    extra_sites : tuple of Site
+        Sites that belong to the model although H may not touch them.
+    name : str
+        A label used in summaries and emitted code.
+    """
+
+    hamiltonian: Operator
+    sector: tuple[tuple[Operator, sp.Expr], ...] = ()
+    observables: tuple[tuple[str, Operator], ...] = ()
+    extra_sites: tuple[Site, ...] = ()
+    name: str = "model"
+    _memo: dict = field(default_factory=dict, compare=False, repr=False, hash=False)
+
+    @classmethod
+    def build(cls, hamiltonian: object, *, sector: Mapping | None = None,
+              observables: Mapping[str, object] | None = None, extra_sites: Iterable[Site] = (),
+              name: str = "model") -> System:
+        """Validate the inputs and build a System (see the class docstring)."""
+        if isinstance(hamiltonian, (list, tuple, dict, str)):
+            raise InputError(
+                f"Model: the Hamiltonian must be an operator expression, got {type(hamiltonian).__name__}"
+            )
+        H = as_operator(hamiltonian)
+        _check_parameters(H.free_symbols, "Model")
+        if not H.is_hermitian():
+            _raise_not_hermitian(H)
+        obs: list[tuple[str, Operator]] = []
+        for key, val in (observables or {}).items():
+            if not isinstance(key, str) or not key.isidentifier():
+                raise InputError(f"Model: observable name {key!r} must be an identifier")
+            obs.append((key, as_operator(val)))
+        sec: list[tuple[Operator, sp.Expr]] = []
+        for q, val in (sector or {}).items():
+            Q = as_operator(q)
+            if not is_diagonal(Q):
+                raise InputError(
+                    f"Model: sector operator {Q} is not diagonal in the product basis; sectors "
+                    f"are fixed values of number-like operators (total S^z, particle numbers)"
+                )
+            if not commutator(H, Q).is_zero:
+                raise NotConservedError(
+                    f"Model: sector operator {Q} does not commute with the Hamiltonian, so its "
+                    f"eigenvalue cannot be fixed; choose a conserved quantity"
+                )
+            try:
+                v = sp.nsimplify(val) if isinstance(val, float) else sp.sympify(val, strict=True)  # safe: number from Python code, strict mode
+            except (sp.SympifyError, TypeError):
+                raise InputError(f"Model: sector value {val!r} is not a number") from None
+            sec.append((Q, v))
+        extra = set(extra_sites)
+        for _, o in obs:
+            extra |= o.sites
+        for Q, _ in sec:
+            extra |= Q.sites
+        sys_ = cls(H, tuple(sec), tuple(sorted(obs)), tuple(sorted(extra - H.sites, key=lambda s: s.order)),
+                   name)
+        sys_.check_site_names()
+        if sec and sys_.basis().dimension == 0:
+            raise InputError(f"Model: the sector {_sector_str(sec)} contains no state")
+        return sys_
+
+    # ------------------------------------------------------------ structure
+    @property
+    def sites(self) -> tuple[Site, ...]:
+        """Every site of the model in site order."""
+        return tuple(sorted(self.hamiltonian.sites | set(self.extra_sites), key=lambda s: s.order))
+
+    def check_site_names(self) -> None:
+        """Raise InputError when two different sites share a name."""
+        seen: dict[str, Site] = {}
+        for s in self.sites:
+            if s.name in seen and seen[s.name] != s:
+                raise InputError(
+                    f"Model: two different sites are both named {s.name!r}; give each site its own name"
+                )
+            seen[s.name] = s
+
+    @property
+    def parameters(self) -> tuple[sp.Symbol, ...]:
+        """Symbols of H and of the observables, sorted by name."""
+        syms = set(self.hamiltonian.free_symbols)
+        for _, o in self.observables:
+            syms |= o.free_symbols
+        return tuple(sorted(syms, key=lambda s: s.name))
+
+    def with_sites(self, sites: Iterable[Site]) -> System:
+        """The same system, extended by the sites of ``sites`` (identity on them)."""
+        new = set(sites) - set(self.sites)
+        if not new:
+            return self
+        extra = tuple(sorted(set(self.extra_sites) | new, key=lambda s: s.order))
+        out = System(self.hamiltonian, self.sector, self.observables, extra, self.name)
+        out.check_site_names()
+        return out
+
+    def basis(self) -> Basis:
+        """The product basis, restricted to the sector when one is set."""
+        memo = self._memo.get("basis")
+        if memo is not None:
+            return memo
+        full = Basis.product(self.sites)
+        if self.sector:
+            keep = list(range(full.dimension))
+            for Q, value in self.sector:
+                diag = sparse_form(Q, full)
+                keep = [i for i in keep if sp.simplify(diag.get((i, i), 0) - value) == 0]
+            full = full.restrict(keep)
+        self._memo["basis"] = full
+        return full
+
+    def operator(self, op: object, *, role: str = "operator") -> Operator:
+        """Resolve ``op`` (an Operator, a scalar or the name of an observable) to an Operator."""
+        if isinstance(op, str):
+            for name, o in self.observables:
+                if name == op:
+                    return o
+            known = ", ".join(n for n, _ in self.observables) or "none defined"
+            raise InputError(f"{role}: no observable named {op!r} (known: {known})")
+        if isinstance(op, Operator):
+            for Q, _ in self.sector:
+                if not commutator(op, Q).is_zero:
+                    raise NotConservedError(
+                        f"{role}: {op} changes the sector quantity {Q}; in a fixed sector only "
+                        f"operators that conserve it can be measured or driven"
+                    )
+            return op
+        try:
+            return as_operator(op)
+        except InputError as err:
+            raise InputError(f"{role}: {err}") from None
+
+
+def _sector_str(sec) -> str:
+    return ", ".join(f"{Q} = {v}" for Q, v in sec)
+
+
+def _raise_not_hermitian(H: Operator) -> None:
+    diff = H - dagger(H)
+    bad = [(m, c) for m, c in diff.terms][:3]
+    complex_params = sorted(s.name for s in H.free_symbols if not s.is_real)
+    hint = ""
+    if complex_params:
+        hint = (f" Parameter(s) {', '.join(complex_params)} are not declared real: use "
+                f"sympy.Symbol(name, real=True) (or positive=True).")
+    shown = " + ".join(f"({c})*{Operator(((m, sp.Integer(1)),), frozenset()).__repr__()}" for m, c in bad)
+    raise NotHermitianError(
+        f"Model: the Hamiltonian is not Hermitian; H - H^dagger = {shown}{' + ...' if len(diff.terms) > 3 else ''}."
+        f"{hint} Add the Hermitian-conjugate terms (e.g. + sr.dagger(term)).")

@@ -1,0 +1,373 @@
+r"""Closed-form linear response from the exact spectrum (layer: response).
+
+Owns :class:`Derivation` (levels, transitions, partition function, static and dynamic
+susceptibilities) and the presentable forms. Imports sympy, :mod:`symresp.conventions`,
+:mod:`symresp.errors`, :mod:`symresp.algebra`, :mod:`symresp.models`, :mod:`symresp.spectrum`.
+
+Formulas (pinned convention of :mod:`symresp.conventions`; levels a, b with energies
+:math:`E_a`, degeneracies :math:`d_a`, populations :math:`p_a = e^{-\beta E_a}/Z` per state and
+weights :math:`W_{ab} = \mathrm{Tr}(P_a A P_b B)`):
+
+.. math::
+
+    \chi_{AB}(\omega) = \sum_{a \ne b} \frac{(p_a - p_b) W_{ab}}{E_b - E_a - \omega - i0^+},
+    \qquad \chi_{AB}(t) = i \sum_{a\ne b} (p_a - p_b) W_{ab}\, e^{-i(E_b - E_a)t},
+
+    \chi^{\rm isol} = \sum_{a \ne b} \frac{(p_a - p_b) W_{ab}}{E_b - E_a}, \qquad
+    \chi^{\rm T} = \chi^{\rm isol} + \beta\Big(\sum_a p_a W_{aa} - \langle A\rangle\langle B\rangle\Big).
+
+Boltzmann factors are written relative to a reference level (the lowest one at a sample
+parameter point), :math:`x_a = e^{-\beta(E_a - E_{\rm ref})}`, so the formulas read as
+physicists write them and stay finite when evaluated.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Literal
+
+import sympy as sp
+
+from ..algebra import Operator, sparse_form
+from ..conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
+from ..errors import InputError
+from ..models import Budget, System
+from ..spectrum import Spectrum, clean, solve
+
+__all__ = ["Level", "Transition", "Derivation", "derive", "StaticKind", "present"]
+
+StaticKind = Literal["isothermal", "isolated"]
+
+
+@dataclass(frozen=True, slots=True)
+class Level:
+    """An energy level: exact energy, degeneracy and the quantum numbers of its parts."""
+
+    energy: sp.Expr
+    degeneracy: int
+    quantum_numbers: tuple[tuple[tuple[str, sp.Expr], ...], ...]
+    parts: tuple[int, ...]
+    implicit: bool = False
+
+    def __repr__(self) -> str:
+        qn = "; ".join(", ".join(f"{n}={v}" for n, v in labels) for labels in self.quantum_numbers)
+        return f"Level(E={self.energy}, g={self.degeneracy}{', ' + qn if qn else ''})"
+
+
+@dataclass(frozen=True, slots=True)
+class Transition:
+    r"""A pole of :math:`\chi(\omega)`: frequency :math:`\Omega = E_b - E_a`, weight
+    :math:`w = (p_a - p_b) W_{ab}`, and the bare matrix weight :math:`W_{ab}`."""
+
+    lower: int
+    upper: int
+    frequency: sp.Expr
+    matrix_weight: sp.Expr
+    weight: sp.Expr
+
+
+def _sample_point(params: tuple[sp.Symbol, ...]) -> dict[sp.Symbol, sp.Rational]:
+    return {p: sp.Rational(2, 3) + sp.Rational(k, 7) for k, p in enumerate(params)}
+
+
+def present(expr: sp.Expr, *, max_ops: int = 400) -> sp.Expr:
+    """Presentable form: common denominator and factored pieces, for expressions of moderate size."""
+    e = sp.together(expr)
+    if sp.count_ops(e) > max_ops:
+        return e
+    n, d = sp.fraction(e)
+    n = sp.factor(sp.expand(n))
+    d = sp.factor(sp.expand(d))
+    return n / d
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class Derivation:
+    r"""The derived linear response :math:`\chi_{AB}` of a system (see the module docstring).
+
+    Built by :func:`derive`; public access goes through ``symresp.Response``.
+    """
+
+    system: System
+    A: Operator
+    B: Operator
+    convention: Convention
+    spectrum: Spectrum
+    levels: tuple[Level, ...]
+    reference: int                                  # index of the reference level
+    level_weights: dict                             # (a, b) -> W_ab  (a, b level indices)
+    expect_A: dict                                  # a -> Tr(P_a A)
+    expect_B: dict
+    _memo: dict = field(default_factory=dict, compare=False, repr=False)
+
+    # ------------------------------------------------------------ thermodynamics
+    def boltzmann(self, a: int) -> sp.Expr:
+        r""":math:`x_a = e^{-\beta (E_a - E_{\rm ref})}` per state of level a."""
+        dE = self.levels[a].energy - self.levels[self.reference].energy
+        dE = sp.expand(dE) if not self.levels[a].implicit else dE
+        return sp.exp(-beta * dE)
+
+    def reduced_partition(self) -> sp.Expr:
+        r""":math:`Z' = Z\, e^{\beta E_{\rm ref}} = \sum_a d_a x_a`."""
+        return sum((lv.degeneracy * self.boltzmann(a) for a, lv in enumerate(self.levels)), sp.Integer(0))
+
+    def partition(self) -> sp.Expr:
+        r"""Partition function :math:`Z = \sum_a d_a e^{-\beta E_a}`."""
+        Eref = self.levels[self.reference].energy
+        return sp.exp(-beta * Eref) * self.reduced_partition()
+
+    def population(self, a: int) -> sp.Expr:
+        r"""Population per state :math:`p_a = x_a / Z'` of level a."""
+        return self.boltzmann(a) / self.reduced_partition()
+
+    def expectation(self, which: Literal["A", "B"]) -> sp.Expr:
+        r""":math:`\langle A\rangle` or :math:`\langle B\rangle` in the Gibbs state of H."""
+        ex = self.expect_A if which == "A" else self.expect_B
+        Zr = self.reduced_partition()
+        return sum((self.boltzmann(a) * v for a, v in ex.items()), sp.Integer(0)) / Zr
+
+    # ------------------------------------------------------------ transitions
+    def transitions(self) -> tuple[Transition, ...]:
+        """All pairs of distinct levels with a non-zero matrix weight, in a stable order."""
+        memo = self._memo.get("transitions")
+        if memo is not None:
+            return memo
+        out = []
+        Zr = self.reduced_partition()
+        for (a, b), W in sorted(self.level_weights.items()):
+            if a == b:
+                continue
+            Om = self.levels[b].energy - self.levels[a].energy
+            Om = sp.expand(Om) if not (self.levels[a].implicit or self.levels[b].implicit) else Om
+            w = (self.boltzmann(a) - self.boltzmann(b)) * W / Zr
+            out.append(Transition(a, b, Om, W, w))
+        res = tuple(out)
+        self._memo["transitions"] = res
+        return res
+
+    def poles(self) -> list[tuple[sp.Expr, sp.Expr]]:
+        r"""Pole table :math:`[(\Omega_k, w_k)]` with :math:`\chi(\omega) = \sum_k w_k/(\Omega_k - \omega - i0^+)`.
+
+        Transitions of equal frequency are merged; weights are exact. Under a non-default
+        convention the table is that of the converted function (see ``docs/conventions.md``).
+        """
+        merged: dict[sp.Expr, sp.Expr] = {}
+        order: list[sp.Expr] = []
+        s, sig = self.convention.sign, self.convention.frequency_sign
+        for tr in self.transitions():
+            key = sig * tr.frequency
+            if key not in merged:
+                merged[key] = sp.Integer(0)
+                order.append(key)
+            merged[key] += s * sig * tr.weight
+        return [(k, present(merged[k])) for k in order]
+
+    # ------------------------------------------------------------ static
+    def static(self, kind: StaticKind = "isothermal") -> sp.Expr:
+        r"""Static susceptibility, ``"isothermal"`` (:math:`\partial\langle A\rangle/\partial f` at
+        fixed T) or ``"isolated"`` (:math:`\chi(\omega \to 0)`)."""
+        if kind not in ("isothermal", "isolated"):
+            raise InputError(f"static: kind={kind!r} must be 'isothermal' or 'isolated'")
+        key = ("static", kind)
+        if key in self._memo:
+            return self._memo[key]
+        iso = self._isolated_raw()
+        if kind == "isolated":
+            val = iso
+        else:
+            Zr = self.reduced_partition()
+            diag = sum((self.boltzmann(a) * W for (a, b), W in self.level_weights.items() if a == b),
+                       sp.Integer(0)) / Zr
+            val = iso + beta * (diag - self.expectation("A") * self.expectation("B"))
+        out = present(self.convention.sign * val)
+        self._memo[key] = out
+        return out
+
+    def _isolated_raw(self) -> sp.Expr:
+        terms = []
+        for tr in self.transitions():
+            terms.append(tr.weight / tr.frequency)
+        return sp.Add(*terms)
+
+    def variance_term(self) -> sp.Expr:
+        r"""Isothermal minus isolated: :math:`\beta(\sum_a p_a W_{aa} - \langle A\rangle\langle B\rangle)`."""
+        return present(self.static("isothermal") - self.static("isolated"))
+
+    # ------------------------------------------------------------ dynamic
+    def _pairs(self):
+        """Group transitions into (+Omega, -Omega) pairs with opposite weights where possible."""
+        trs = list(self.transitions())
+        index = {(tr.lower, tr.upper): tr for tr in trs}
+        used: set = set()
+        paired, single = [], []
+        for tr in trs:
+            key = (tr.lower, tr.upper)
+            if key in used:
+                continue
+            rev = index.get((tr.upper, tr.lower))
+            if rev is not None and sp.expand(rev.matrix_weight - tr.matrix_weight) == 0:
+                # w(b->a) = (p_b - p_a) W_ba = -w(a->b) when W_ba = W_ab
+                up = tr if self._is_upward(tr) else rev
+                paired.append(up)
+                used |= {key, (tr.upper, tr.lower)}
+            else:
+                single.append(tr)
+                used.add(key)
+        return paired, single
+
+    def _is_upward(self, tr: Transition) -> bool:
+        return self._order[tr.upper] > self._order[tr.lower]
+
+    @property
+    def _order(self) -> dict[int, int]:
+        memo = self._memo.get("order")
+        if memo is None:
+            pt = _sample_point(self.system.parameters)
+            vals = [complex(sp.N(lv.energy.subs(pt), 20)).real for lv in self.levels]
+            ranks = sorted(range(len(vals)), key=lambda i: vals[i])
+            memo = {a: r for r, a in enumerate(ranks)}
+            self._memo["order"] = memo
+        return memo
+
+    def frequency(self, var: sp.Symbol = omega) -> sp.Expr:
+        r""":math:`\chi_{AB}(\omega)` (retarded prescription implied: :math:`\omega \to \omega + i0^+`).
+
+        Pairs of poles at :math:`\pm\Omega` with opposite weights are combined into
+        :math:`2\Omega w/(\Omega^2 - \omega^2)`.
+        """
+        s, sig = self.convention.sign, self.convention.frequency_sign
+        w_ = sig * var
+        paired, single = self._merged_pairs()
+        terms = [present(2 * w) * Om / (Om**2 - w_**2) for Om, w in paired]
+        terms += [present(w) / (Om - w_) for Om, w in single]
+        return s * sp.Add(*terms)
+
+    def _merged_pairs(self):
+        """Paired and single poles with weights summed over equal frequencies."""
+        paired, single = self._pairs()
+
+        def merge(trs):
+            acc: dict[sp.Expr, sp.Expr] = {}
+            for tr in trs:
+                acc[tr.frequency] = acc.get(tr.frequency, sp.Integer(0)) + tr.weight
+            return list(acc.items())
+
+        return merge(paired), merge(single)
+
+    def time(self, var: sp.Symbol = t) -> sp.Expr:
+        r""":math:`\chi_{AB}(t) = i\sum_k w_k e^{-i\Omega_k t}` for t > 0; paired poles give
+        :math:`2 w \sin(\Omega t)`."""
+        if self.convention.prescription == "advanced":
+            raise InputError(
+                "time: the advanced function vanishes for t > 0; derive with the retarded "
+                "convention for chi(t)"
+            )
+        s, sig = self.convention.sign, self.convention.frequency_sign
+        paired, single = self._merged_pairs()
+        terms = [present(2 * w) * sp.sin(Om * var) for Om, w in paired]
+        terms += [sp.I * present(w) * sp.exp(-sp.I * Om * var) for Om, w in single]
+        del sig  # chi(t) does not depend on the Fourier sign
+        return s * sp.Add(*terms)
+
+    def matsubara(self, var: sp.Symbol = nu) -> sp.Expr:
+        r""":math:`\chi(i\nu_n) = \sum_k w_k/(\Omega_k - i\nu_n)` for :math:`\nu_n = 2\pi n/\beta \ne 0`.
+
+        At :math:`\nu_n = 0` the Matsubara function equals the isothermal susceptibility, not
+        this expression's limit (which is the isolated one).
+        """
+        s = self.convention.sign
+        return s * sp.Add(*[present(w) / (Om - sp.I * var) for Om, w in self._raw_poles()])
+
+    def _raw_poles(self):
+        return [(tr.frequency, tr.weight) for tr in self.transitions()]
+
+    def spectral_lines(self) -> list[tuple[sp.Expr, sp.Expr]]:
+        r"""Lines of :math:`\chi''(\omega) = \pi\sum_k w_k\,\delta(\omega - \Omega_k)`:
+        pairs (position, strength :math:`\pi w_k`)."""
+        return [(Om, sp.pi * w) for Om, w in self.poles()]
+
+    def zero_temperature(self, kind: StaticKind = "isothermal") -> sp.Expr:
+        r"""Static susceptibility at T = 0 assuming the reference level is the ground level
+        (true on the parameter region containing the sample point used to order levels)."""
+        val = self.static(kind)
+        lim = sp.limit(val, beta, sp.oo) if sp.count_ops(val) < 300 else None
+        if lim is None or lim.has(sp.AccumBounds) or lim.has(sp.Limit):
+            raise InputError("zero_temperature: the limit could not be taken in closed form")
+        return present(lim)
+
+
+def _group_levels(spec: Spectrum) -> tuple[list[Level], list[int]]:
+    groups: dict[sp.Expr, list[int]] = {}
+    order: list[sp.Expr] = []
+    for i, p in enumerate(spec.parts):
+        key = p.energy
+        if key not in groups:
+            groups[key] = []
+            order.append(key)
+        groups[key].append(i)
+    levels, part_level = [], [0] * len(spec.parts)
+    blocks = spec.structure.blocks
+    for li, key in enumerate(order):
+        idx = groups[key]
+        for i in idx:
+            part_level[i] = li
+        deg = sum(spec.parts[i].multiplicity for i in idx)
+        qn = tuple(blocks[spec.parts[i].block].labels for i in idx)
+        levels.append(Level(key, deg, qn, tuple(idx), any(spec.parts[i].implicit for i in idx)))
+    return levels, part_level
+
+
+def derive(system: System, A: Operator, B: Operator, *, convention: Convention = DEFAULT_CONVENTION,
+           budget: Budget = Budget()) -> Derivation:
+    """Derive the linear response of ``A`` to a field coupling to ``B`` in ``system``.
+
+    Parameters
+    ----------
+    system : System
+    A, B : Operator
+        Measured and driving operators.
+    convention : Convention
+    budget : Budget
+
+    Returns
+    -------
+    Derivation
+
+    Examples
+    --------
+    >>> import sympy as sp, symresp as sr
+    >>> from symresp.models import System
+    >>> from symresp.response import derive
+    >>> s = sr.spin("s", sr.Rational(1, 2))
+    >>> d = derive(System.build(0 * s.z), s.z, s.z)
+    >>> d.static("isothermal"), d.static("isolated")
+    (beta/4, 0)
+    """
+    clock = budget.start()
+    system = system.with_sites(A.sites | B.sites)
+    spec = solve(system, clock=clock, max_symbolic_block=budget.max_symbolic_block,
+                 max_block=budget.max_block)
+    basis = spec.structure.basis
+    As, Bs = sparse_form(A, basis), sparse_form(B, basis)
+    W = spec.weights(As, Bs, clock)
+    levels, part_level = _group_levels(spec)
+    lw: dict[tuple[int, int], sp.Expr] = {}
+    for (pa, pb), w in W.items():
+        key = (part_level[pa], part_level[pb])
+        lw[key] = lw.get(key, sp.Integer(0)) + w
+    lw = {k: (clean(v) if not (levels[k[0]].implicit or levels[k[1]].implicit) else v)
+          for k, v in lw.items()}
+    lw = {k: v for k, v in lw.items() if v != 0}
+
+    def level_expect(ex: dict[int, sp.Expr]) -> dict[int, sp.Expr]:
+        out: dict[int, sp.Expr] = {}
+        for p, v in ex.items():
+            out[part_level[p]] = out.get(part_level[p], sp.Integer(0)) + v
+        return {k: v for k, v in out.items() if sp.expand(v) != 0}
+
+    eA = level_expect(spec.expectations(As))
+    eB = level_expect(spec.expectations(Bs))
+    pt = _sample_point(system.parameters)
+    vals = [complex(sp.N(lv.energy.subs(pt), 30)).real for lv in levels]
+    ref = min(range(len(levels)), key=lambda i: vals[i])
+    return Derivation(system, A, B, convention, spec, tuple(levels), ref, lw, eA, eB)

@@ -1,0 +1,537 @@
+r"""Exact eigen-solution of each block and exact eigenspace weights (layer: spectrum).
+
+Owns :class:`Spectrum`, :class:`Part` and the weight computation
+:math:`W_{ab} = \mathrm{Tr}(P_a A P_b B)`. Imports sympy, python-flint, :mod:`symresp.errors`,
+:mod:`symresp.algebra`, :mod:`symresp.models` and :mod:`._blocks`.
+
+Method (no basis choice inside degenerate levels)
+-------------------------------------------------
+For a block matrix :math:`M` with minimal polynomial :math:`m(x)` (square-free, since H is
+Hermitian) the projector onto the eigenspace of a root :math:`\lambda` is the Lagrange–Sylvester
+polynomial
+
+.. math:: P_\lambda = \frac{g_\lambda(M)}{m'(\lambda)}, \qquad
+          g_\lambda(y) = \frac{m(y)}{y - \lambda} = \sum_{k<D} h_k(\lambda)\, y^k ,
+
+so :math:`\mathrm{Tr}(P_a A P_b B) = \sum_{k,l} \alpha_k(\lambda_a)\,\alpha_l(\lambda_b)\,
+\mathrm{Tr}(M_i^k A M_j^l B)` with :math:`\alpha_k = h_k/m'`.
+
+*Scaled blocks* (the common case: :math:`H_{\rm block} = c\,1 + s\,M` with one parameter scale
+:math:`s` and an exact rational matrix :math:`M`) are solved over QQ with FLINT: characteristic
+polynomial, factorisation, matrix powers and traces are exact rational arithmetic, and
+:math:`\alpha_k` is reduced modulo each irreducible factor :math:`f`, so a weight is an exact
+polynomial in the roots of :math:`f`. Factors of degree 1 and 2 give explicit roots; a factor
+of degree >= 3 is kept as its exact real roots (``CRootOf``): the semi-closed form.
+
+*Symbolic blocks* (several parameters mixed inside one block) are solved with sympy: the
+characteristic polynomial is factored over the field of the parameters, roots of factors of
+degree <= 2 are explicit, and :math:`\alpha_k(\lambda)` is simplified with targeted operations.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import Literal
+
+import flint
+import sympy as sp
+
+from ..algebra import SparseForm
+from ..errors import BudgetExceeded, ClosedFormError
+from ..models import Clock, System
+from ._blocks import Block, BlockStructure, decompose
+
+__all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean"]
+
+_x = sp.Dummy("x")
+
+
+def clean(e: sp.Expr) -> sp.Expr:
+    """Targeted simplification of a weight or energy: rationalise, cancel, tidy square roots."""
+    e = sp.expand(e)
+    if e.is_Rational or not e.free_symbols and not e.has(sp.Pow):
+        return e
+    if e.has(sp.Pow) and any(p.exp.is_Rational and not p.exp.is_Integer for p in e.atoms(sp.Pow)):
+        e = sp.radsimp(sp.together(e))
+        return sp.expand(sp.cancel(e)) if not e.has(sp.CRootOf) else e
+    return sp.factor(sp.cancel(e)) if e.free_symbols else e
+
+
+def _q(v) -> sp.Rational:
+    """flint fmpq / fmpz -> sympy Rational."""
+    if isinstance(v, flint.fmpz):
+        return sp.Integer(int(v))
+    return sp.Rational(int(v.p), int(v.q))
+
+
+@dataclass(frozen=True, slots=True)
+class Factor:
+    """An irreducible factor of a block's characteristic polynomial.
+
+    ``coeffs`` (highest power first) define :math:`f(x)` in the block variable x: the energies
+    are ``shift + scale * root`` for each root of f. ``implicit`` marks degree >= 3.
+    """
+
+    coeffs: tuple[sp.Expr, ...]
+    multiplicity: int
+    roots: tuple[sp.Expr, ...]
+    implicit: bool
+
+    @property
+    def degree(self) -> int:
+        """Degree of f."""
+        return len(self.coeffs) - 1
+
+    def polynomial(self, var: sp.Symbol) -> sp.Expr:
+        """f as an expression in ``var``."""
+        return sum((c * var ** (self.degree - i) for i, c in enumerate(self.coeffs)), sp.Integer(0))
+
+
+@dataclass(frozen=True, slots=True)
+class Part:
+    """The eigenspace of one root of one factor inside one block."""
+
+    block: int
+    factor: int
+    root: int
+    energy: sp.Expr
+    multiplicity: int
+    implicit: bool
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class BlockSolution:
+    """Exact solution of one block (internal representation; see the module docstring)."""
+
+    block: Block
+    kind: Literal["scaled", "symbolic"]
+    shift: sp.Expr
+    scale: sp.Expr
+    factors: tuple[Factor, ...]
+    degree: int                       # D, degree of the minimal polynomial
+    powers: tuple                     # M^k, k < D: flint fmpq_mat (scaled) or sympy Matrix
+    reducers: tuple                   # scaled: per factor, D x deg(f) fmpq_mat of alpha_k mod f
+    alphas: tuple                     # symbolic: per factor, per root, tuple of alpha_k
+
+    def alpha(self, factor: int, root: int) -> tuple[sp.Expr, ...]:
+        """:math:`\\alpha_k(\\lambda)` for k < D as sympy expressions."""
+        if self.kind == "symbolic":
+            return self.alphas[factor][root]
+        red = self.reducers[factor]
+        r = self.factors[factor].roots[root]
+        deg = self.factors[factor].degree
+        return tuple(
+            clean(sum((_q(red[k, p]) * r**p for p in range(deg)), sp.Integer(0)))
+            for k in range(self.degree)
+        )
+
+    def sympy_power(self, k: int) -> sp.Matrix:
+        """M^k as a sympy Matrix."""
+        P = self.powers[k]
+        if self.kind == "symbolic":
+            return P
+        n = P.nrows()
+        return sp.Matrix(n, n, lambda i, j: _q(P[i, j]))
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class Spectrum:
+    """Exact spectrum of a system: blocks, their solutions and the list of eigenspace parts."""
+
+    structure: BlockStructure
+    solutions: tuple[BlockSolution, ...]
+    parts: tuple[Part, ...]
+
+    @property
+    def is_closed_form(self) -> bool:
+        """False when some energy is an implicit root (semi-closed form)."""
+        return not any(p.implicit for p in self.parts)
+
+    def parts_of(self, block: int) -> list[int]:
+        """Indices of the parts of ``block``."""
+        return [i for i, p in enumerate(self.parts) if p.block == block]
+
+    def split(self, op: SparseForm) -> dict[tuple[int, int], dict[tuple[int, int], sp.Expr]]:
+        """Matrix elements of an operator grouped by (row block, column block) in local indices."""
+        where = {}
+        for b in self.structure.blocks:
+            for li, p in enumerate(b.positions):
+                where[p] = (b.index, li)
+        out: dict[tuple[int, int], dict[tuple[int, int], sp.Expr]] = {}
+        for (r, c), v in op.items():
+            bi, li = where[r]
+            bj, lj = where[c]
+            out.setdefault((bi, bj), {})[(li, lj)] = v
+        return out
+
+    # ---------------------------------------------------------------- weights
+    def weights(self, A: SparseForm, B: SparseForm, clock: Clock | None = None
+                ) -> dict[tuple[int, int], sp.Expr]:
+        r"""Exact :math:`\mathrm{Tr}(P_a A P_b B)` for every pair of parts (a, b) with a non-zero value."""
+        As, Bs = self.split(A), self.split(B)
+        out: dict[tuple[int, int], sp.Expr] = {}
+        for (bi, bj), a_blk in sorted(As.items()):
+            b_blk = Bs.get((bj, bi))
+            if not b_blk:
+                continue
+            if clock:
+                clock.check("computing transition weights", f"blocks {bi} -> {bj}")
+            si, sj = self.solutions[bi], self.solutions[bj]
+            for (fa, ra, fb, rb), w in _pair_weights(si, sj, a_blk, b_blk).items():
+                if w != 0:
+                    pa = self._part_index(bi, fa, ra)
+                    pb = self._part_index(bj, fb, rb)
+                    out[(pa, pb)] = w
+        return out
+
+    def expectations(self, A: SparseForm) -> dict[int, sp.Expr]:
+        r"""Exact :math:`\mathrm{Tr}(P_a A)` for every part a with a non-zero value."""
+        As = self.split(A)
+        out: dict[int, sp.Expr] = {}
+        for (bi, bj), a_blk in As.items():
+            if bi != bj:
+                continue
+            s = self.solutions[bi]
+            n = s.block.size
+            for fa, f in enumerate(s.factors):
+                for ra in range(f.degree):
+                    if s.kind == "scaled":
+                        t = [_trace_q(s.powers[k], a_blk, n) for k in range(s.degree)]
+                        red = s.reducers[fa]
+                        coeff = [sum((_q(red[k, p]) * t[k] for k in range(s.degree)), sp.Integer(0))
+                                 for p in range(f.degree)]
+                        val = _eval_root_poly(coeff, f.roots[ra])
+                    else:
+                        al = s.alpha(fa, ra)
+                        val = clean(sum((al[k] * _trace_sym(s.powers[k], a_blk) for k in range(s.degree)),
+                                        sp.Integer(0)))
+                    if val != 0:
+                        out[self._part_index(bi, fa, ra)] = val
+        return out
+
+    def _part_index(self, block: int, factor: int, root: int) -> int:
+        idx = self._index_map()
+        return idx[(block, factor, root)]
+
+    def _index_map(self) -> dict[tuple[int, int, int], int]:
+        m = _INDEX_CACHE.get(id(self))
+        if m is None or m[0] is not self:
+            m = (self, {(p.block, p.factor, p.root): i for i, p in enumerate(self.parts)})
+            _INDEX_CACHE[id(self)] = m
+        return m[1]
+
+
+# id-keyed cache of part indices; entries hold a reference to their Spectrum, so ids never clash.
+_INDEX_CACHE: dict[int, tuple[Spectrum, dict]] = {}
+
+
+def _trace_q(P: flint.fmpq_mat, a_blk: dict, n: int) -> sp.Rational:
+    # Tr(P A) = sum_{ij} P[j, i] A[i, j] ; A entries may be symbolic -> sympy sum
+    return sum((_q(P[j, i]) * v for (i, j), v in a_blk.items()), sp.Integer(0))
+
+
+def _trace_sym(P: sp.Matrix, a_blk: dict) -> sp.Expr:
+    return sum((P[j, i] * v for (i, j), v in a_blk.items()), sp.Integer(0))
+
+
+def _eval_root_poly(coeff: list, root: sp.Expr) -> sp.Expr:
+    """sum_p coeff[p] root**p, exact."""
+    if root.is_Rational:
+        return sp.expand(sum((c * root**p for p, c in enumerate(coeff)), sp.Integer(0)))
+    return clean(sum((c * root**p for p, c in enumerate(coeff)), sp.Integer(0)))
+
+
+def _decompose_entries(blk: dict[tuple[int, int], sp.Expr]) -> dict[sp.Expr, dict[tuple[int, int], Fraction]]:
+    """Write a matrix as sum_g g * R_g with scalar atoms g and rational matrices R_g."""
+    out: dict[sp.Expr, dict[tuple[int, int], Fraction]] = {}
+    for key, v in blk.items():
+        for atom, c in sp.expand(v).as_coefficients_dict().items():
+            out.setdefault(atom, {})[key] = Fraction(int(c.p), int(c.q))
+    return out
+
+
+def _flat_products(powers, comp: dict[tuple[int, int], Fraction], nrow: int, ncol: int,
+                   transpose: bool) -> flint.fmpq_mat:
+    """Rows k: vec(M^k R) (or vec((M^k R)^T)) for a sparse rational R of shape nrow x ncol."""
+    D = len(powers)
+    R = flint.fmpq_mat(nrow, ncol)
+    for (i, j), v in comp.items():
+        R[i, j] = flint.fmpq(v.numerator, v.denominator)
+    rows = []
+    for k in range(D):
+        X = powers[k] * R
+        if transpose:
+            X = X.transpose()
+        rows.extend(X.entries())
+    width = nrow * ncol
+    return flint.fmpq_mat(D, width, rows)
+
+
+def _pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
+                  ) -> dict[tuple[int, int, int, int], sp.Expr]:
+    """Weights Tr(P_a A P_b B) for all parts a of block i and b of block j."""
+    out: dict[tuple[int, int, int, int], sp.Expr] = {}
+    ni, nj = si.block.size, sj.block.size
+    if si.kind == "scaled" and sj.kind == "scaled":
+        Ad, Bd = _decompose_entries(a_blk), _decompose_entries(b_blk)
+        Xs = {g: _flat_products(si.powers, comp, ni, nj, transpose=False) for g, comp in Ad.items()}
+        Ys = {g: _flat_products(sj.powers, comp, nj, ni, transpose=True) for g, comp in Bd.items()}
+        for fa, fA in enumerate(si.factors):
+            for fb, fB in enumerate(sj.factors):
+                total: dict[tuple[int, int], sp.Expr] = {}
+                for ga, X in Xs.items():
+                    GA = si.reducers[fa].transpose() * X          # deg_a x (ni nj)
+                    for gb, Y in Ys.items():
+                        GB = sj.reducers[fb].transpose() * Y      # deg_b x (ni nj)
+                        Wc = GA * GB.transpose()                  # deg_a x deg_b
+                        scal = ga * gb
+                        for p in range(fA.degree):
+                            for q in range(fB.degree):
+                                c = Wc[p, q]
+                                if c != 0:
+                                    total[(p, q)] = total.get((p, q), sp.Integer(0)) + scal * _q(c)
+                for ra, xa in enumerate(fA.roots):
+                    for rb, xb in enumerate(fB.roots):
+                        w = sum((c * xa**p * xb**q for (p, q), c in total.items()), sp.Integer(0))
+                        w = clean(w) if not (xa.is_Rational and xb.is_Rational) else sp.expand(w)
+                        if w != 0:
+                            out[(fa, ra, fb, rb)] = w
+        return out
+    # General route: sympy matrices and explicit alpha coefficients.
+    A = sp.SparseMatrix(ni, nj, a_blk)
+    B = sp.SparseMatrix(nj, ni, b_blk)
+    X = [si.sympy_power(k) * A for k in range(si.degree)]
+    Y = [sj.sympy_power(l) * B for l in range(sj.degree)]
+    T = [[sum((X[k][r, c] * Y[l][c, r] for r in range(ni) for c in range(nj)), sp.Integer(0))
+          for l in range(sj.degree)] for k in range(si.degree)]
+    for fa, fA in enumerate(si.factors):
+        for ra in range(fA.degree):
+            al = si.alpha(fa, ra)
+            row = [sum((al[k] * T[k][l] for k in range(si.degree)), sp.Integer(0)) for l in range(sj.degree)]
+            for fb, fB in enumerate(sj.factors):
+                for rb in range(fB.degree):
+                    be = sj.alpha(fb, rb)
+                    w = clean(sum((row[l] * be[l] for l in range(sj.degree)), sp.Integer(0)))
+                    if w != 0:
+                        out[(fa, ra, fb, rb)] = w
+    return out
+
+
+# ---------------------------------------------------------------- solving one block
+
+def _scaled_form(Hb: dict[tuple[int, int], sp.Expr], n: int):
+    """Return (shift, scale, {(i,j): Fraction}) if Hb = shift*1 + scale*M with rational M, else None."""
+    comps = _decompose_entries(Hb)
+    shift = sp.Integer(0)
+    scale_atom = None
+    M: dict[tuple[int, int], Fraction] = {}
+    for atom, comp in comps.items():
+        diag = {comp.get((i, i), Fraction(0)) for i in range(n)}
+        offdiag = any(i != j and v != 0 for (i, j), v in comp.items())
+        if not offdiag and len(diag) == 1:
+            d = diag.pop()
+            shift += atom * sp.Rational(d.numerator, d.denominator)
+            continue
+        if scale_atom is not None:
+            return None
+        scale_atom, M = atom, comp
+    if scale_atom is None:
+        return shift, sp.Integer(1), {}
+    return shift, scale_atom, M
+
+
+def _roots_of_int_factor(coeffs: list[int], where: str) -> tuple[tuple[sp.Expr, ...], bool]:
+    deg = len(coeffs) - 1
+    if deg == 1:
+        a, b = coeffs
+        return (sp.Rational(-b, a),), False
+    if deg == 2:
+        a, b, c = coeffs
+        disc = sp.Integer(b * b - 4 * a * c)
+        r = sp.sqrt(disc)
+        return (sp.expand((-b - r) / (2 * a)), sp.expand((-b + r) / (2 * a))), False
+    poly = sp.Poly(coeffs, _x)
+    return tuple(sp.CRootOf(poly, k) for k in range(deg)), True
+
+
+def _solve_scaled(block: Block, shift, scale, Mq: dict, clock: Clock | None) -> BlockSolution:
+    n = block.size
+    M = flint.fmpq_mat(n, n)
+    for (i, j), v in Mq.items():
+        M[i, j] = flint.fmpq(v.numerator, v.denominator)
+    where = f"block {block.index} ({block.label_text() or 'no labels'}, size {n})"
+    cp = M.charpoly()
+    _, flist = cp.factor()
+    m = M.minpoly()
+    if clock:
+        clock.check("factoring the characteristic polynomial", where)
+    D = m.degree()
+    mc = [m.coeffs()[k] for k in range(D + 1)]  # low -> high
+    mprime = m.derivative()
+    factors, reducers = [], []
+    for fpoly, mult in flist:
+        fc = [int(fpoly.coeffs()[k] * fpoly.denom()) if hasattr(fpoly, 'denom') else int(fpoly.coeffs()[k])
+              for k in range(fpoly.degree() + 1)]
+        f = flint.fmpq_poly(fc)
+        deg = f.degree()
+        roots, implicit = _roots_of_int_factor(list(reversed(fc)), where)
+        g, s, _ = (mprime % f).xgcd(f)
+        inv = s * (1 / g.coeffs()[0]) if deg > 0 else s
+        red = flint.fmpq_mat(D, deg)
+        for k in range(D):
+            hk = flint.fmpq_poly(mc[k + 1:]) * inv % f
+            hc = hk.coeffs()
+            for p in range(min(deg, len(hc))):
+                red[k, p] = hc[p]
+        factors.append(Factor(tuple(sp.Integer(c) for c in reversed(fc)), int(mult), roots, implicit))
+        reducers.append(red)
+    powers = [flint.fmpq_mat(n, n, [1 if i == j else 0 for i in range(n) for j in range(n)])]
+    for _ in range(1, D):
+        powers.append(powers[-1] * M)
+        if clock:
+            clock.check("matrix powers", where)
+    return BlockSolution(block, "scaled", shift, scale, tuple(factors), D, tuple(powers),
+                         tuple(reducers), ())
+
+
+def _quadratic_roots(a, b, c) -> tuple[sp.Expr, sp.Expr]:
+    disc = sp.factor(sp.expand(b * b - 4 * a * c))
+    r = sp.sqrt(disc)
+    return (clean((-b - r) / (2 * a)), clean((-b + r) / (2 * a)))
+
+
+def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None,
+                    params: tuple[sp.Symbol, ...]) -> BlockSolution:
+    n = block.size
+    where = f"block {block.index} ({block.label_text() or 'no labels'}, size {n})"
+    if n > budget_max:
+        raise BudgetExceeded(
+            f"{where} mixes several parameters and has size {n} > {budget_max}, too large for a "
+            f"symbolic characteristic polynomial; give numeric values to some parameters, add a "
+            f"sector, or raise Budget(max_symbolic_block=...)"
+        )
+    Mb = sp.Matrix(n, n, lambda i, j: Hb.get((i, j), sp.Integer(0)))
+    cp = Mb.charpoly(_x).as_expr()
+    if clock:
+        clock.check("characteristic polynomial", where)
+    _, flist = sp.factor_list(sp.expand(cp), _x, *params) if params else sp.factor_list(cp, _x)
+    factors = []
+    mpoly = sp.Integer(1)
+    for f, mult in flist:
+        if not f.has(_x):
+            continue
+        P = sp.Poly(f, _x)
+        deg = P.degree()
+        cs = P.all_coeffs()
+        if deg == 1:
+            roots = (clean(-cs[1] / cs[0]),)
+        elif deg == 2:
+            roots = _quadratic_roots(*cs)
+        else:
+            raise ClosedFormError(
+                f"{where}: the characteristic polynomial has an irreducible factor of degree {deg} "
+                f"in the parameters ({sp.sstr(f.subs(_x, sp.Symbol('E')))}); its roots have no closed "
+                f"form. Give numeric values to all but one parameter of this block, or use the "
+                f"numeric reference"
+            )
+        factors.append(Factor(tuple(cs), int(mult), roots, False))
+        mpoly *= f
+        if clock:
+            clock.check("roots", where)
+    mP = sp.Poly(sp.expand(mpoly), _x)
+    mP = mP.monic() if mP.LC() != 1 else mP
+    D = mP.degree()
+    mc = list(reversed(mP.all_coeffs()))  # low -> high
+    mprime = mP.diff(_x)
+    alphas = []
+    for f in factors:
+        per_root = []
+        for lam in f.roots:
+            den = clean(mprime.as_expr().subs(_x, lam))
+            al = []
+            for k in range(D):
+                hk = sum((mc[j] * lam ** (j - k - 1) for j in range(k + 1, D + 1)), sp.Integer(0))
+                al.append(clean(hk / den))
+            per_root.append(tuple(al))
+        alphas.append(tuple(per_root))
+    powers = [sp.eye(n)]
+    for _ in range(1, D):
+        powers.append((powers[-1] * Mb).applyfunc(sp.expand))
+    return BlockSolution(block, "symbolic", sp.Integer(0), sp.Integer(1), tuple(factors), D,
+                         tuple(powers), (), tuple(alphas))
+
+
+def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int = 8,
+          max_block: int = 400) -> Spectrum:
+    """Exact spectrum of ``system`` (cached on the system).
+
+    Parameters
+    ----------
+    system : System
+    clock : Clock, optional
+        Running budget, checked between steps.
+    max_symbolic_block, max_block : int
+        Size limits (see :class:`symresp.models.Budget`).
+
+    Returns
+    -------
+    Spectrum
+
+    Raises
+    ------
+    BudgetExceeded
+        A block is too large or the time budget ran out (the message names the block).
+    ClosedFormError
+        A block mixing several parameters has an irreducible factor of degree >= 3.
+
+    Examples
+    --------
+    >>> import sympy as sp, symresp as sr
+    >>> from symresp.models import System
+    >>> from symresp.spectrum import solve
+    >>> J = sp.Symbol("J", positive=True)
+    >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    >>> sorted({p.energy for p in solve(System.build(J * (a.vec @ b.vec))).parts}, key=str)
+    [-3*J/4, J/4]
+    """
+    memo = system._memo.get("spectrum")
+    if memo is not None:
+        return memo
+    structure = decompose(system, clock)
+    H = structure.hamiltonian
+    local: dict[int, dict] = {}
+    where = {}
+    for b in structure.blocks:
+        for li, p in enumerate(b.positions):
+            where[p] = (b.index, li)
+        local[b.index] = {}
+    for (r, c), v in H.items():
+        bi, li = where[r]
+        _, lj = where[c]
+        local[bi][(li, lj)] = v
+    sols = []
+    params = system.parameters
+    for b in structure.blocks:
+        if b.size > max_block:
+            raise BudgetExceeded(
+                f"block {b.index} ({b.label_text()}) has {b.size} states, above the limit "
+                f"{max_block} for exact solution; restrict to a sector or raise Budget(max_block=...)"
+            )
+        sf = _scaled_form(local[b.index], b.size)
+        if sf is not None:
+            sols.append(_solve_scaled(b, *sf, clock))
+        else:
+            sols.append(_solve_symbolic(b, local[b.index], max_symbolic_block, clock, params))
+        if clock:
+            clock.check("solving blocks", f"block {b.index}")
+    parts = []
+    for s in sols:
+        for fi, f in enumerate(s.factors):
+            for ri, r in enumerate(f.roots):
+                E = s.shift + s.scale * r
+                E = sp.expand(E) if not f.implicit else E
+                parts.append(Part(s.block.index, fi, ri, E, f.multiplicity, f.implicit))
+    out = Spectrum(structure, tuple(sols), tuple(parts))
+    system._memo["spectrum"] = out
+    return out
