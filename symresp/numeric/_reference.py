@@ -1031,7 +1031,8 @@ def poles(
     degeneracy_tol: float | None = None,
     weight_tol: float | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
-    r"""Pole table ``(Omega, w)`` of :math:`\chi_{AB}(\omega) = \sum_k w_k/(\Omega_k - \omega - i0^+)`.
+    r"""Pole table ``(Omega, w)`` of
+    :math:`\chi_{AB}(\omega) = \sum_k w_k/(\Omega_k - \omega - i0^+)`.
 
     :math:`\Omega_k = E_b - E_a` and :math:`w_k = (p_a - p_b)\operatorname{Tr}(P_a A P_b B)`
     over pairs of distinct levels, merged when the frequencies agree within the degeneracy
@@ -1292,7 +1293,8 @@ def chi_time(
     >>> from symresp.numeric import chi_time
     >>> sx = [[0, 1], [1, 0]]
     >>> t = np.array([0.0, 0.4, 2.0])
-    >>> bool(np.allclose(chi_time(np.diag([0.5, -0.5]), sx, sx, 2.0, t), 2 * np.tanh(1.0) * np.sin(t)))
+    >>> chi = chi_time(np.diag([0.5, -0.5]), sx, sx, 2.0, t)
+    >>> bool(np.allclose(chi, 2 * np.tanh(1.0) * np.sin(t)))
     True
     """
     data = _prepare(H, A, B, beta, degeneracy_tol)
@@ -1350,7 +1352,8 @@ def chi_matsubara(
     >>> from symresp.numeric import chi_matsubara
     >>> sx = [[0, 1], [1, 0]]
     >>> nu = 2 * np.pi * 3 / 2.0
-    >>> bool(np.isclose(chi_matsubara(np.diag([0.5, -0.5]), sx, sx, 2.0, 3), 2 * np.tanh(1.0) / (1 + nu**2)))
+    >>> chi = chi_matsubara(np.diag([0.5, -0.5]), sx, sx, 2.0, 3)
+    >>> bool(np.isclose(chi, 2 * np.tanh(1.0) / (1 + nu**2)))
     True
     """
     data = _prepare(H, A, B, beta, degeneracy_tol)
@@ -1412,7 +1415,8 @@ def spectral_function(
     >>> from symresp.numeric import chi_omega, spectral_function
     >>> sx = [[0, 1], [1, 0]]; H = np.diag([0.5, -0.5])
     >>> w = np.linspace(-2, 2, 5)
-    >>> bool(np.allclose(spectral_function(H, sx, sx, 2.0, w, 0.1), chi_omega(H, sx, sx, 2.0, w, 0.1).imag))
+    >>> spectral = spectral_function(H, sx, sx, 2.0, w, 0.1)
+    >>> bool(np.allclose(spectral, chi_omega(H, sx, sx, 2.0, w, 0.1).imag))
     True
     """
     data = _prepare(H, A, B, beta, degeneracy_tol)

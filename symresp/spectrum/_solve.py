@@ -44,7 +44,7 @@ from ._blocks import Block, BlockStructure, decompose
 
 __all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean"]
 
-_x = sp.Dummy("x")
+_x = sp.Symbol("x__block")  # block variable; a plain Symbol survives polys round trips
 
 
 def clean(e: sp.Expr) -> sp.Expr:
@@ -121,8 +121,9 @@ class BlockSolution:
         red = self.reducers[factor]
         r = self.factors[factor].roots[root]
         deg = self.factors[factor].degree
+        tidy = sp.expand if self.factors[factor].implicit or r.is_Rational else clean
         return tuple(
-            clean(sum((_q(red[k, p]) * r**p for p in range(deg)), sp.Integer(0)))
+            tidy(sum((_q(red[k, p]) * r**p for p in range(deg)), sp.Integer(0)))
             for k in range(self.degree)
         )
 
@@ -204,8 +205,9 @@ class Spectrum:
                         val = _eval_root_poly(coeff, f.roots[ra])
                     else:
                         al = s.alpha(fa, ra)
-                        val = clean(sum((al[k] * _trace_sym(s.powers[k], a_blk) for k in range(s.degree)),
-                                        sp.Integer(0)))
+                        val = sum((al[k] * _trace_sym(s.powers[k], a_blk) for k in range(s.degree)),
+                                  sp.Integer(0))
+                        val = sp.expand(val) if f.implicit else clean(val)
                     if val != 0:
                         out[self._part_index(bi, fa, ra)] = val
         return out
@@ -294,7 +296,7 @@ def _pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
                 for ra, xa in enumerate(fA.roots):
                     for rb, xb in enumerate(fB.roots):
                         w = sum((c * xa**p * xb**q for (p, q), c in total.items()), sp.Integer(0))
-                        w = clean(w) if not (xa.is_Rational and xb.is_Rational) else sp.expand(w)
+                        w = sp.expand(w) if (xa.is_Rational and xb.is_Rational) or fA.implicit or fB.implicit else clean(w)
                         if w != 0:
                             out[(fa, ra, fb, rb)] = w
         return out
@@ -312,7 +314,8 @@ def _pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
             for fb, fB in enumerate(sj.factors):
                 for rb in range(fB.degree):
                     be = sj.alpha(fb, rb)
-                    w = clean(sum((row[l] * be[l] for l in range(sj.degree)), sp.Integer(0)))
+                    w = sum((row[l] * be[l] for l in range(sj.degree)), sp.Integer(0))
+                    w = sp.expand(w) if (fA.implicit or fB.implicit) else clean(w)
                     if w != 0:
                         out[(fa, ra, fb, rb)] = w
     return out
@@ -415,7 +418,13 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
     cp = Mb.charpoly(_x).as_expr()
     if clock:
         clock.check("characteristic polynomial", where)
-    _, flist = sp.factor_list(sp.expand(cp), _x, *params) if params else sp.factor_list(cp, _x)
+    content, flist = sp.factor_list(sp.expand(cp), _x, *params) if params else sp.factor_list(cp, _x)
+    # factor_list may leave a monomial factor x**k inside the returned content.
+    flist = list(flist)
+    for atom in sp.Mul.make_args(content):
+        base, e = atom.as_base_exp()
+        if base.has(_x):
+            flist.append((base, int(e)))
     factors = []
     mpoly = sp.Integer(1)
     for f, mult in flist:
@@ -428,6 +437,12 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
             roots = (clean(-cs[1] / cs[0]),)
         elif deg == 2:
             roots = _quadratic_roots(*cs)
+        elif all(c.is_Rational for c in cs):
+            # Numeric factor of a complex-Hermitian block: exact real roots, semi-closed form.
+            roots = tuple(sp.CRootOf(P, k) for k in range(deg))
+            factors.append(Factor(tuple(cs), int(mult), roots, True))
+            mpoly *= f
+            continue
         else:
             raise ClosedFormError(
                 f"{where}: the characteristic polynomial has an irreducible factor of degree {deg} "
@@ -447,6 +462,15 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
     alphas = []
     for f in factors:
         per_root = []
+        if f.implicit:
+            fP = sp.Poly(f.coeffs, _x, domain="QQ")
+            mQ = sp.Poly(mP.all_coeffs(), _x, domain="QQ")
+            inv = mQ.diff(_x).rem(fP).invert(fP)
+            red = [(sp.Poly(mc[k + 1:][::-1], _x, domain="QQ") * inv).rem(fP) for k in range(D)]
+            for lam in f.roots:
+                per_root.append(tuple(sp.expand(r.as_expr().subs(_x, lam)) for r in red))
+            alphas.append(tuple(per_root))
+            continue
         for lam in f.roots:
             den = clean(mprime.as_expr().subs(_x, lam))
             al = []

@@ -1,0 +1,500 @@
+r"""Public facade types :class:`Model` and :class:`Response` (layer: facade, above cases).
+
+These thin classes give the stable API of DESIGN.md; every method delegates to the layer that
+owns the work (models, spectrum, response, numeric). Imports any lower layer; nothing below
+imports this module.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Literal
+
+import numpy as np
+import sympy as sp
+
+from . import numeric
+from ._public import public
+from .algebra import Operator, Site, to_array, to_sympy_matrix
+from .conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
+from .errors import InputError
+from .models import Budget, System
+from .response import Derivation, Level, Transition, derive
+
+__all__ = ["Model", "Response"]
+
+Quantity = Literal["isothermal", "isolated", "frequency", "time", "partition"]
+
+
+@public
+class Model:
+    r"""A quantum model: a Hamiltonian on sites, optionally in a sector, with named observables.
+
+    Parameters
+    ----------
+    H : Operator
+        Hermitian Hamiltonian built from site operators and sympy parameters (declare them
+        ``real=True`` or ``positive=True``).
+    sector : mapping, optional
+        ``{Q: q}``: restrict to the eigenspace ``Q = q`` of conserved, number-like operators
+        (canonical ensemble).
+    observables : mapping, optional
+        Named operators, usable by name in :meth:`response`.
+    name : str
+        Label for summaries and emitted code.
+
+    Raises
+    ------
+    NotHermitianError
+        If H is not Hermitian for real parameters.
+    NotConservedError
+        If a sector operator does not commute with H.
+
+    Examples
+    --------
+    >>> import sympy as sp, symresp as sr
+    >>> J = sp.Symbol("J", positive=True)
+    >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    >>> model = sr.Model(J * (a.vec @ b.vec))
+    >>> [(lv.energy, lv.degeneracy) for lv in model.levels()]
+    [(J/4, 3), (-3*J/4, 1)]
+    >>> r = model.response(a.z + b.z, a.z + b.z)
+    >>> r.static("isothermal")          # Bleaney-Bowers, g mu_B = 1
+    2*beta/(exp(J*beta) + 3)
+
+    See Also
+    --------
+    Response, load_case
+    """
+
+    __slots__ = ("_system",)
+
+    def __init__(self, H: object, *, sector: Mapping | None = None,
+                 observables: Mapping[str, object] | None = None, name: str = "model") -> None:
+        if sector is not None and not isinstance(sector, Mapping):
+            raise InputError(f"Model: sector={sector!r} must be a mapping {{operator: value}}")
+        if observables is not None and not isinstance(observables, Mapping):
+            raise InputError(f"Model: observables={observables!r} must be a mapping {{name: operator}}")
+        if not isinstance(name, str):
+            raise InputError(f"Model: name={name!r} must be a string")
+        self._system = System.build(H, sector=sector, observables=observables, name=name)
+
+    @classmethod
+    def _from_system(cls, system: System) -> Model:
+        m = cls.__new__(cls)
+        m._system = system
+        return m
+
+    # ------------------------------------------------------------ structure
+    @property
+    def system(self) -> System:
+        """The validated model data (immutable)."""
+        return self._system
+
+    @property
+    def hamiltonian(self) -> Operator:
+        """The Hamiltonian H."""
+        return self._system.hamiltonian
+
+    @property
+    def sites(self) -> tuple[Site, ...]:
+        """All sites in site order."""
+        return self._system.sites
+
+    @property
+    def parameters(self) -> tuple[sp.Symbol, ...]:
+        """Symbolic parameters, sorted by name."""
+        return self._system.parameters
+
+    @property
+    def observables(self) -> dict[str, Operator]:
+        """Named observables (a fresh dict)."""
+        return dict(self._system.observables)
+
+    @property
+    def dimension(self) -> int:
+        """Dimension of the (sector) Hilbert space."""
+        return self._system.basis().dimension
+
+    def matrix(self, op: object = None) -> sp.Matrix:
+        """Sympy matrix of ``op`` (default: H) on the product basis (restricted to the sector).
+
+        Examples
+        --------
+        >>> import symresp as sr
+        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> sr.Model(0 * s.z).matrix(s.x)
+        Matrix([
+        [  0, 1/2],
+        [1/2,   0]])
+        """
+        system, X = self._resolve(op)
+        return to_sympy_matrix(X, system.basis())
+
+    def array(self, op: object = None, *, params: Mapping | None = None) -> np.ndarray:
+        """Complex numpy array of ``op`` (default: H) at numeric parameter values ``params``.
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> h = sp.Symbol("h", real=True); s = sr.spin("s", 1)
+        >>> sr.Model(h * s.z).array(params={"h": 2}).real.diagonal().tolist()
+        [2.0, 0.0, -2.0]
+        """
+        system, X = self._resolve(op)
+        return to_array(X, system.basis(), _numeric_params(system, params))
+
+    def basis_labels(self) -> list[str]:
+        """Kets of the basis in matrix order, e.g. ``['|1/2,1/2>', ...]``."""
+        b = self._system.basis()
+        return [b.label(i) for i in range(b.dimension)]
+
+    def _resolve(self, op: object) -> tuple[System, Operator]:
+        X = self._system.hamiltonian if op is None else self._system.operator(op, role="matrix")
+        return self._system.with_sites(X.sites), X
+
+    # ------------------------------------------------------------ derivation
+    def levels(self, *, budget: Budget = Budget()) -> tuple[Level, ...]:
+        """Exact energy levels with degeneracies and quantum numbers (see :class:`Level`).
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> D = sp.Symbol("D", real=True); s = sr.spin("s", 1)
+        >>> [(lv.energy, lv.degeneracy) for lv in sr.Model(D * s.z**2).levels()]
+        [(D, 2), (0, 1)]
+        """
+        zero = Operator((), frozenset())
+        return derive(self._system, zero, zero, budget=budget).levels
+
+    def response(self, A: object, B: object | None = None, *,
+                 convention: Convention = DEFAULT_CONVENTION, budget: Budget = Budget()) -> Response:
+        r"""Derive :math:`\chi_{AB}`: measure ``A``, drive ``B`` (default ``B = A``).
+
+        Parameters
+        ----------
+        A, B : Operator or str
+            Operators or names of observables.
+        convention : Convention
+            Sign conventions (default: the pinned one of ``docs/conventions.md``).
+        budget : Budget
+            Limits on the expensive steps.
+
+        Returns
+        -------
+        Response
+
+        Examples
+        --------
+        >>> import symresp as sr
+        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> r = sr.Model(0 * s.z).response(s.z, s.z)     # a free spin
+        >>> r.static("isothermal"), r.static("isolated")  # Curie law vs. zero
+        (beta/4, 0)
+        """
+        if not isinstance(convention, Convention):
+            raise InputError(f"response: convention={convention!r} must be a symresp Convention")
+        if not isinstance(budget, Budget):
+            raise InputError(f"response: budget={budget!r} must be a symresp.models.Budget")
+        Aop = self._system.operator(A, role="response A")
+        Bop = self._system.operator(A if B is None else B, role="response B")
+        return Response(derive(self._system, Aop, Bop, convention=convention, budget=budget))
+
+    def __repr__(self) -> str:
+        sites = ", ".join(repr(s) for s in self.sites)
+        return f"Model({self._system.name!r}: {sites}; dimension {self.dimension})"
+
+
+def _numeric_params(system: System, params: Mapping | None) -> dict[sp.Symbol, complex]:
+    out: dict[sp.Symbol, complex] = {}
+    by_name = {p.name: p for p in system.parameters}
+    for k, v in (params or {}).items():
+        sym = by_name.get(k) if isinstance(k, str) else k
+        if sym is None:
+            known = ", ".join(by_name) or "none"
+            raise InputError(f"params: unknown parameter {k!r} (model parameters: {known})")
+        try:
+            val = complex(v)
+        except (TypeError, ValueError):
+            raise InputError(f"params: value {v!r} for {k} is not a number") from None
+        if not np.isfinite(val):
+            raise InputError(f"params: value {v!r} for {k} is not finite")
+        out[sym] = val
+    return out
+
+
+@public
+class Response:
+    r"""The derived linear response :math:`\chi_{AB}` of a model, in closed form.
+
+    Conventions: those of :mod:`symresp.conventions` unless another :class:`Convention` was
+    asked for; the result records it in :attr:`convention`.
+
+    Examples
+    --------
+    >>> import sympy as sp, symresp as sr
+    >>> Delta = sp.Symbol("Delta", positive=True)
+    >>> q = sr.spin("q", sr.Rational(1, 2))
+    >>> r = sr.Model(Delta * q.z).response(2 * q.x)        # two-level system, A = B = sigma_x
+    >>> r.poles()
+    [(Delta, tanh(Delta*beta/2)), (-Delta, -tanh(Delta*beta/2))]
+    >>> sp.simplify(r.frequency() - 2*Delta*sp.tanh(sr.beta*Delta/2)/(Delta**2 - sr.omega**2))
+    0
+    """
+
+    __slots__ = ("_d",)
+
+    def __init__(self, derivation: Derivation) -> None:
+        if not isinstance(derivation, Derivation):
+            raise InputError("Response: build responses with Model.response(A, B)")
+        self._d = derivation
+
+    @property
+    def derivation(self) -> Derivation:
+        """The underlying derivation (levels, weights, spectrum)."""
+        return self._d
+
+    @property
+    def convention(self) -> Convention:
+        """The convention this result was derived under."""
+        return self._d.convention
+
+    @property
+    def model(self) -> Model:
+        """The model (extended by the sites of A and B)."""
+        return Model._from_system(self._d.system)
+
+    @property
+    def levels(self) -> tuple[Level, ...]:
+        """Energy levels."""
+        return self._d.levels
+
+    @property
+    def transitions(self) -> tuple[Transition, ...]:
+        """Transitions between distinct levels with non-zero weight."""
+        return self._d.transitions()
+
+    @property
+    def is_closed_form(self) -> bool:
+        """False when some level is an implicit root (semi-closed form)."""
+        return self._d.spectrum.is_closed_form
+
+    def static(self, kind: Literal["isothermal", "isolated"] = "isothermal") -> sp.Expr:
+        r"""Static susceptibility in ``sr.beta`` and the parameters.
+
+        ``"isothermal"``: :math:`\partial\langle A\rangle/\partial f` at fixed temperature;
+        ``"isolated"``: :math:`\chi(\omega\to 0)`. They differ by
+        :math:`\beta(\sum_a p_a W_{aa} - \langle A\rangle\langle B\rangle)`.
+
+        Examples
+        --------
+        >>> import symresp as sr
+        >>> s = sr.spin("s", sr.Rational(3, 2))
+        >>> sr.Model(0 * s.z).response(s.z).static("isothermal")   # beta S(S+1)/3
+        5*beta/4
+        """
+        return self._d.static(kind)
+
+    def frequency(self) -> sp.Expr:
+        r""":math:`\chi_{AB}(\omega)` in ``sr.omega``, retarded prescription implied.
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sr.Rational(1, 2))
+        >>> r = sr.Model(h * s.z).response(s.x)
+        >>> sp.simplify(r.frequency().subs(sr.omega, 0) - r.static("isolated"))
+        0
+        """
+        return self._d.frequency(omega)
+
+    def time(self) -> sp.Expr:
+        r""":math:`\chi_{AB}(t)` for t > 0 in ``sr.t``.
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sr.Rational(1, 2))
+        >>> sr.Model(h * s.z).response(s.x).time()
+        tanh(beta*h/2)*sin(h*t)/2
+        """
+        return self._d.time(t)
+
+    def poles(self) -> list[tuple[sp.Expr, sp.Expr]]:
+        r"""Pole table :math:`[(\Omega_k, w_k)]`: :math:`\chi(\omega) = \sum_k w_k/(\Omega_k - \omega - i0^+)`.
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> sr.Model(0 * s.z).response(s.z).poles()    # a free spin has no transitions
+        []
+        """
+        return self._d.poles()
+
+    def spectral_lines(self) -> list[tuple[sp.Expr, sp.Expr]]:
+        r"""Lines of :math:`\chi''(\omega) = \pi \sum_k w_k \delta(\omega - \Omega_k)` as (position, strength).
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sr.Rational(1, 2))
+        >>> sr.Model(h * s.z).response(s.x).spectral_lines()[0]
+        (h, pi*tanh(beta*h/2)/4)
+        """
+        return self._d.spectral_lines()
+
+    def matsubara(self) -> sp.Expr:
+        r""":math:`\chi(i\nu_n)` in ``sr.nu`` for :math:`\nu_n \ne 0` (at :math:`\nu_n = 0` use the isothermal value).
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sr.Rational(1, 2))
+        >>> r = sr.Model(h * s.z).response(s.x)
+        >>> sp.simplify(r.matsubara().subs(sr.nu, 0) - r.static("isolated"))
+        0
+        """
+        return self._d.matsubara(nu)
+
+    def partition_function(self) -> sp.Expr:
+        r"""Partition function :math:`Z = \sum_a d_a e^{-\beta E_a}`.
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", 1)
+        >>> sr.Model(0 * s.z).response(s.z).partition_function()
+        3
+        """
+        return self._d.partition()
+
+    def expectation(self, which: Literal["A", "B"] = "A") -> sp.Expr:
+        r"""Thermal average :math:`\langle A\rangle` (or :math:`\langle B\rangle`) in the Gibbs state of H.
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", 1)
+        >>> sr.Model(0 * s.z).response(s.z * s.z).expectation()
+        2/3
+        """
+        if which not in ("A", "B"):
+            raise InputError(f"expectation: which={which!r} must be 'A' or 'B'")
+        return sp.factor(self._d.expectation(which))
+
+    def evaluate(self, quantity: Quantity, *, params: Mapping | None = None, T: float | None = None,
+                 omega_value: complex | None = None, time_value: float | None = None) -> complex:
+        """Evaluate a quantity at numbers (slow sympy route, meant for checks).
+
+        Examples
+        --------
+        >>> import symresp as sr
+        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> round(sr.Model(0 * s.z).response(s.z).evaluate("isothermal", T=0.5).real, 12)
+        0.5
+        """
+        return evaluate_expression(self, quantity, params=params, T=T, omega_value=omega_value,
+                                   time_value=time_value)
+
+    def reference(self, *, params: Mapping | None = None, T: float) -> numeric.NumericResponse:
+        """The numeric reference (exact diagonalisation) at numbers, for comparison.
+
+        Examples
+        --------
+        >>> import symresp as sr
+        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> round(sr.Model(0 * s.z).response(s.z).reference(T=0.5).isothermal, 12)
+        0.5
+        """
+        if not (isinstance(T, (int, float)) and T > 0 and np.isfinite(T)):
+            raise InputError(f"reference: T={T!r} must be a positive finite number")
+        system = self._d.system
+        p = _numeric_params(system, params)
+        basis = system.basis()
+        H = to_array(system.hamiltonian, basis, p)
+        A = to_array(self._d.A, basis, p)
+        B = to_array(self._d.B, basis, p)
+        return numeric.solve(H, A, B, 1.0 / T)
+
+    def summary(self) -> str:
+        """A readable derivation summary: levels, transitions, Z, static and dynamic chi.
+
+        Examples
+        --------
+        >>> import symresp as sr
+        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> print(sr.Model(0 * s.z).response(s.z).summary().splitlines()[0])
+        Linear response chi_AB of model 'model'
+        """
+        d = self._d
+        lines = [f"Linear response chi_AB of model {d.system.name!r}",
+                 f"  A = {d.A}", f"  B = {d.B}",
+                 f"  convention: {d.convention.describe()}",
+                 f"  blocks: {d.spectrum.structure.describe()}", "", "Levels (E, degeneracy, quantum numbers):"]
+        for lv in d.levels:
+            qn = "; ".join(", ".join(f"{n}={v}" for n, v in lab) for lab in lv.quantum_numbers)
+            lines.append(f"  E = {sp.sstr(lv.energy):<30} g = {lv.degeneracy:<3} {qn}")
+        lines += ["", "Transitions (Omega = E_b - E_a, W_ab = Tr(P_a A P_b B)):"]
+        for tr in d.transitions():
+            lines.append(f"  {tr.lower} -> {tr.upper}: Omega = {sp.sstr(tr.frequency)}, W = {sp.sstr(tr.matrix_weight)}")
+        if not d.transitions():
+            lines.append("  none")
+        lines += ["", f"Z = {sp.sstr(d.partition())}",
+                  f"chi_isothermal = {sp.sstr(self.static('isothermal'))}",
+                  f"chi_isolated   = {sp.sstr(self.static('isolated'))}",
+                  f"chi(omega)     = {sp.sstr(self.frequency())}"]
+        return "\n".join(lines)
+
+    def latex(self) -> str:
+        r"""LaTeX (aligned) block with Z, the static susceptibilities and :math:`\chi(\omega)`.
+
+        Examples
+        --------
+        >>> import symresp as sr
+        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> print(sr.Model(0 * s.z).response(s.z).latex().splitlines()[1])
+        Z &= 2 \\
+        """
+        rows = [("Z", self.partition_function()),
+                (r"\chi^{T}_{AB}", self.static("isothermal")),
+                (r"\chi^{\mathrm{isol}}_{AB}", self.static("isolated")),
+                (r"\chi_{AB}(\omega)", self.frequency())]
+        body = " \\\\\n".join(f"{k} &= {sp.latex(v)}" for k, v in rows)
+        return "\\begin{aligned}\n" + body + " \\\\\n\\end{aligned}"
+
+    def _repr_latex_(self) -> str:
+        return "$$" + self.latex() + "$$"
+
+    def __repr__(self) -> str:
+        return f"Response(A={self._d.A}, B={self._d.B}, levels={len(self._d.levels)})"
+
+
+def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T: float | None,
+                        omega_value: complex | None = None, time_value: float | None = None) -> complex:
+    """Numeric value of one of the response's closed forms (mpmath precision, via sympy)."""
+    system = r.derivation.system
+    p = _numeric_params(system, params)
+    missing = set(system.parameters) - set(p)
+    exprs = {"isothermal": lambda: r.static("isothermal"), "isolated": lambda: r.static("isolated"),
+             "frequency": r.frequency, "time": r.time, "partition": r.partition_function}
+    if quantity not in exprs:
+        raise InputError(f"evaluate: quantity={quantity!r} must be one of {', '.join(exprs)}")
+    expr = exprs[quantity]()
+    missing &= expr.free_symbols
+    if missing:
+        raise InputError(f"evaluate: give values for {', '.join(sorted(map(str, missing)))} in params=")
+    subs: dict = {k: sp.nsimplify(v.real) if v.imag == 0 else v for k, v in p.items()}
+    if expr.has(beta):
+        if T is None or not T > 0:
+            raise InputError(f"evaluate: T={T!r} must be a positive temperature")
+        subs[beta] = 1 / sp.nsimplify(T)
+    if quantity == "frequency":
+        if omega_value is None:
+            raise InputError("evaluate: give omega_value for the 'frequency' quantity")
+        subs[omega] = sp.sympify(complex(omega_value))  # safe: a Python complex number
+    if quantity == "time":
+        if time_value is None:
+            raise InputError("evaluate: give time_value for the 'time' quantity")
+        subs[t] = sp.nsimplify(time_value)
+    return complex(sp.N(expr.subs(subs), 30))
