@@ -16,12 +16,14 @@ import sympy as sp
 from . import numeric
 from ._public import public
 from .algebra import Operator, Site, to_array, to_sympy_matrix
+from .cases import find_case, read_case
+from .checks import Report, Verdict, compare, consistency
 from .conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from .errors import InputError
 from .models import Budget, System
 from .response import Derivation, Level, Transition, derive
 
-__all__ = ["Model", "Response"]
+__all__ = ["Model", "Response", "load_case"]
 
 Quantity = Literal["isothermal", "isolated", "frequency", "time", "partition"]
 
@@ -417,6 +419,35 @@ class Response:
         B = to_array(self._d.B, basis, p)
         return numeric.solve(H, A, B, 1.0 / T)
 
+    def check(self, formula: object, quantity: Quantity = "isothermal", *, samples: int = 9,
+              seed: int = 0, units: Mapping | None = None) -> Verdict:
+        """Compare a hand-derived formula with this result and name the slip if they differ
+        (see ``symresp.checks.compare`` and docs/checking.md).
+
+        Examples
+        --------
+        >>> import symresp as sr
+        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> print(sr.Model(0 * s.z).response(s.z).check("beta/4"))
+        agrees (exact)
+        >>> sr.Model(0 * s.z).response(s.z).check("beta/4", "isolated").slip
+        'isothermal-for-isolated'
+        """
+        return compare(self._d, formula, quantity, samples=samples, seed=seed, units=units)
+
+    def consistency(self, *, points: int = 3, seed: int = 0) -> Report:
+        """Run the physical consistency checks (sum rules, Kramers-Kronig, fluctuation-dissipation,
+        positivity, Onsager, high-temperature limit, numeric reference); see docs/checking.md.
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sr.Rational(1, 2))
+        >>> sr.Model(h * s.z).response(s.x).consistency(points=1).ok
+        True
+        """
+        return consistency(self._d, points=points, seed=seed)
+
     def summary(self) -> str:
         """A readable derivation summary: levels, transitions, Z, static and dynamic chi.
 
@@ -498,3 +529,19 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
             raise InputError("evaluate: give time_value for the 'time' quantity")
         subs[t] = sp.nsimplify(time_value)
     return complex(sp.N(expr.subs(subs), 30))
+
+
+@public
+def load_case(path: object) -> Model:
+    """Load a case file (a path, or the name of a bundled case) as a :class:`Model`.
+
+    The model carries the case's named observables, so ``model.response("M")`` works.
+
+    Examples
+    --------
+    >>> import symresp as sr
+    >>> m = sr.load_case("dimer")
+    >>> m.dimension, sorted(m.observables)
+    (4, ['M'])
+    """
+    return Model._from_system(read_case(find_case(path)).system)

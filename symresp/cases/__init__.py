@@ -1,1 +1,24 @@
-"""placeholder"""
+"""Case files (layer: cases): TOML descriptions of models, checked and turned into systems.
+
+Imports the standard library, numpy, sympy, mpmath and the lower layers of symresp (errors,
+conventions, algebra, text, models, response, numeric). The format is documented in
+``docs/case-files.md``; expressions use the safe formula language of :mod:`symresp.text`.
+"""
+
+from ._curves import Curves, response_curves
+from ._find import (ENV_VARIABLE, CaseSummary, bundled_cases, case_directories, case_summary,
+                    find_case)
+from ._numbers import PRECISE_DIGITS, evaluate_arrays, evaluate_precise
+from ._read import (ASSUMPTIONS, DEFAULT_QUANTITIES, MAX_CASE_BYTES, QUANTITIES, SITE_KINDS, Case,
+                    Parameter, ResponseRequest, SiteSpec, parse_case, read_case)
+from ._verify import (VERIFY_ATOL, VERIFY_RTOL, Check, Verification, derive_case, energy_scale,
+                      sample_point, verify_case)
+
+__all__ = [
+    "Case", "Parameter", "SiteSpec", "ResponseRequest", "read_case", "parse_case",
+    "QUANTITIES", "DEFAULT_QUANTITIES", "ASSUMPTIONS", "SITE_KINDS", "MAX_CASE_BYTES",
+    "find_case", "bundled_cases", "case_directories", "case_summary", "CaseSummary", "ENV_VARIABLE",
+    "evaluate_precise", "evaluate_arrays", "PRECISE_DIGITS",
+    "derive_case", "verify_case", "Check", "Verification", "sample_point", "energy_scale",
+    "VERIFY_RTOL", "VERIFY_ATOL", "Curves", "response_curves",
+]

@@ -72,9 +72,13 @@ def _sample_point(params: tuple[sp.Symbol, ...]) -> dict[sp.Symbol, sp.Rational]
 
 def present(expr: sp.Expr, *, max_ops: int = 400) -> sp.Expr:
     """Presentable form: common denominator and factored pieces, for expressions of moderate size."""
+    if expr.has(sp.CRootOf) or sp.count_ops(expr) > max_ops:
+        return expr
+    if any(p.exp.is_Rational and not p.exp.is_Integer and not p.base.free_symbols
+           for p in expr.atoms(sp.Pow)):
+        # numeric surds: factoring over an algebraic extension costs far more than it tidies
+        return expr
     e = sp.together(expr)
-    if sp.count_ops(e) > max_ops:
-        return e
     n, d = sp.fraction(e)
     n = sp.factor(sp.expand(n))
     d = sp.factor(sp.expand(d))

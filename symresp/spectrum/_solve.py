@@ -30,7 +30,7 @@ degree <= 2 are explicit, and :math:`\alpha_k(\lambda)` is simplified with targe
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from fractions import Fraction
 from typing import Literal
 
@@ -48,14 +48,46 @@ _x = sp.Symbol("x__block")  # block variable; a plain Symbol survives polys roun
 
 
 def clean(e: sp.Expr) -> sp.Expr:
-    """Targeted simplification of a weight or energy: rationalise, cancel, tidy square roots."""
-    e = sp.expand(e)
-    if e.is_Rational or not e.free_symbols and not e.has(sp.Pow):
-        return e
-    if e.has(sp.Pow) and any(p.exp.is_Rational and not p.exp.is_Integer for p in e.atoms(sp.Pow)):
-        e = sp.radsimp(sp.together(e))
-        return sp.expand(sp.cancel(e)) if not e.has(sp.CRootOf) else e
-    return sp.factor(sp.cancel(e)) if e.free_symbols else e
+    """Targeted simplification of a weight or energy containing square roots of parameters.
+
+    Each square root sqrt(D) is replaced by a symbol R with R**2 = D; the expression is brought
+    to one fraction, reduced modulo R**2 - D, the denominator is rationalised one root at a
+    time, and each coefficient of the remaining monomials in the roots is cancelled. No blanket
+    simplify() is used, so the cost stays polynomial in the size of the expression.
+    """
+    e = sp.sympify(e)  # safe: e is always a sympy expression built by symresp
+    if e.is_Rational or e.has(sp.CRootOf):
+        return sp.expand(e)
+    rads = sorted({p for p in e.atoms(sp.Pow) if p.exp == sp.S.Half and p.base.free_symbols},
+                  key=sp.default_sort_key)
+    if not rads:
+        return sp.factor(sp.cancel(e)) if e.free_symbols else sp.radsimp(sp.expand(e))
+    R = [sp.Dummy(f"R{i}", positive=True) for i in range(len(rads))]
+    D = [r.base for r in rads]
+    e2 = e.xreplace(dict(zip(rads, R)))
+    num, den = sp.fraction(sp.together(e2))
+
+    def reduce(x: sp.Expr) -> sp.Expr:
+        x = sp.expand(x)
+        for Ri, Di in zip(R, D):
+            x = sp.rem(x, Ri**2 - Di, Ri) if x.has(Ri) else x
+        return sp.expand(x)
+
+    num, den = reduce(num), reduce(den)
+    for Ri in R:
+        if not den.has(Ri):
+            continue
+        b = den.coeff(Ri, 1)
+        a = sp.expand(den - b * Ri)
+        conj = a - b * Ri
+        num, den = reduce(num * conj), reduce(den * conj)
+    out = sp.Integer(0)
+    poly = sp.Poly(num, *R)
+    den = sp.factor(den)
+    for monom, coeff in poly.terms():
+        mono = sp.Mul(*[Ri**k for Ri, k in zip(R, monom)])
+        out += sp.factor(sp.cancel(coeff / den)) * mono
+    return out.xreplace(dict(zip(R, rads)))
 
 
 def _q(v) -> sp.Rational:
@@ -113,6 +145,7 @@ class BlockSolution:
     powers: tuple                     # M^k, k < D: flint fmpq_mat (scaled) or sympy Matrix
     reducers: tuple                   # scaled: per factor, D x deg(f) fmpq_mat of alpha_k mod f
     alphas: tuple                     # symbolic: per factor, per root, tuple of alpha_k
+    gauge: tuple | None = None        # diagonal rescaling D (block matrix is D^-1 H D), or None
 
     def alpha(self, factor: int, root: int) -> tuple[sp.Expr, ...]:
         """:math:`\\alpha_k(\\lambda)` for k < D as sympy expressions."""
@@ -163,6 +196,9 @@ class Spectrum:
         for (r, c), v in op.items():
             bi, li = where[r]
             bj, lj = where[c]
+            gi, gj = self.solutions[bi].gauge, self.solutions[bj].gauge
+            if gi is not None or gj is not None:
+                v = sp.expand(v * (gj[lj] if gj else 1) / (gi[li] if gi else 1))
             out.setdefault((bi, bj), {})[(li, lj)] = v
         return out
 
@@ -342,6 +378,61 @@ def _scaled_form(Hb: dict[tuple[int, int], sp.Expr], n: int):
     if scale_atom is None:
         return shift, sp.Integer(1), {}
     return shift, scale_atom, M
+
+
+def _surd(e: sp.Expr) -> sp.Expr | None:
+    """Common real irrational numeric factor (a square-root product) of all terms of e.
+
+    Returns 1 when every term is rational up to parameters and the imaginary unit, the common
+    factor when there is one, and None when the terms carry different surds.
+    """
+    common: sp.Expr | None = None
+    for atom, c in sp.expand(e).as_coefficients_dict().items():
+        num = c * (atom.as_independent(*atom.free_symbols, as_Add=False)[0] if atom.free_symbols else atom)
+        _, irr = sp.Mul(num).as_coeff_Mul()
+        if irr.has(sp.I):
+            irr = sp.expand(irr / sp.I)
+        if common is None:
+            common = irr
+        elif not (irr / common).is_Rational:
+            return None
+    return sp.Integer(1) if common is None else common
+
+
+def _gauge(Hb: dict[tuple[int, int], sp.Expr], n: int) -> list[sp.Expr] | None:
+    """Diagonal similarity D with D^-1 H D free of square roots, found along a spanning forest.
+
+    Spin operators of S >= 1 have matrix elements sqrt(S(S+1) - m(m+1)); rescaling the basis
+    states removes them, so the block can be solved over the rationals (the spectrum is
+    unchanged and projectors transform as D^-1 P D). Returns None when no rescaling is needed
+    or none exists.
+    """
+    surds = {k: _surd(v) for k, v in Hb.items()}
+    if all(v == 1 for v in surds.values()):
+        return None
+    adj: dict[int, list[int]] = {}
+    for (i, j) in Hb:
+        if i != j:
+            adj.setdefault(i, []).append(j)
+    d: list[sp.Expr | None] = [None] * n
+    for root in range(n):
+        if d[root] is not None:
+            continue
+        d[root] = sp.Integer(1)
+        stack = [root]
+        while stack:
+            i = stack.pop()
+            for j in adj.get(i, []):
+                if d[j] is None:
+                    sv = surds[(i, j)]
+                    if sv is None:
+                        return None
+                    d[j] = sp.radsimp(d[i] / sv)
+                    stack.append(j)
+    for (i, j), v in Hb.items():
+        if _surd(sp.expand(v * d[j] / d[i])) != 1:
+            return None
+    return d  # type: ignore[return-value]
 
 
 def _roots_of_int_factor(coeffs: list[int], where: str) -> tuple[tuple[sp.Expr, ...], bool]:
@@ -542,11 +633,18 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
                 f"block {b.index} ({b.label_text()}) has {b.size} states, above the limit "
                 f"{max_block} for exact solution; restrict to a sector or raise Budget(max_block=...)"
             )
-        sf = _scaled_form(local[b.index], b.size)
+        Hb = local[b.index]
+        gauge = _gauge(Hb, b.size)
+        if gauge is not None:
+            Hb = {(i, j): sp.expand(v * gauge[j] / gauge[i]) for (i, j), v in Hb.items()}
+        sf = _scaled_form(Hb, b.size)
         if sf is not None:
-            sols.append(_solve_scaled(b, *sf, clock))
+            sol = _solve_scaled(b, *sf, clock)
         else:
-            sols.append(_solve_symbolic(b, local[b.index], max_symbolic_block, clock, params))
+            sol = _solve_symbolic(b, Hb, max_symbolic_block, clock, params)
+        if gauge is not None:
+            sol = replace(sol, gauge=tuple(gauge))
+        sols.append(sol)
         if clock:
             clock.check("solving blocks", f"block {b.index}")
     parts = []

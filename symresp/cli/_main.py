@@ -1,0 +1,323 @@
+"""The ``symresp`` command: argument parsing, dispatch and exit codes (layer: cli).
+
+Owns :func:`main` and :func:`build_parser`. Imports argparse and the layers below (cases,
+response, emit, models, errors); printing lives in :mod:`._format`, plots in :mod:`._plot`.
+
+Exit codes: 0 success; 1 a verification mismatch, a derivation that hit its budget or has no
+closed form, or an internal error (a bug: the message asks for a report; ``--debug`` shows
+the traceback); 2 bad input (malformed case file or formula, unknown case, bad option), with
+``error: <message>`` on stderr and no traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import dataclasses
+import sys
+import time
+import traceback
+from collections.abc import Callable, Sequence
+from importlib import metadata
+from pathlib import Path
+
+from .. import emit as emit_layer
+from ..cases import (QUANTITIES, Case, bundled_cases, case_directories, case_summary, derive_case,
+                     find_case, read_case, response_curves, verify_case)
+from ..errors import InputError, SymrespError
+from ..models import Budget
+from ..response import Derivation
+from ._format import derivation_json, describe_case, describe_derivation, verification_table
+from ._plot import HAVE_MATPLOTLIB, write_plots
+
+__all__ = ["main", "build_parser", "EXIT_OK", "EXIT_FAILURE", "EXIT_BAD_INPUT"]
+
+EXIT_OK = 0
+EXIT_FAILURE = 1
+EXIT_BAD_INPUT = 2
+
+try:
+    _VERSION = metadata.version("symresp")
+except metadata.PackageNotFoundError:  # running from a source tree that was never installed
+    _VERSION = "(not installed)"
+
+_REPORT_HINT = ("this is a bug in symresp; please report it together with the case file and the "
+                "command line (run again with --debug to see the traceback)")
+
+
+class _Progress:
+    """Stage messages on stderr, with the elapsed time; silent with --quiet."""
+
+    def __init__(self, quiet: bool) -> None:
+        self.quiet = quiet
+        self.start = time.monotonic()
+
+    def __call__(self, message: str) -> None:
+        if not self.quiet:
+            print(f"[{time.monotonic() - self.start:6.1f} s] {message}", file=sys.stderr,
+                  flush=True)
+
+
+def _positive_float(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+    if not (v > 0 and v < float("inf")):
+        raise argparse.ArgumentTypeError(f"{text!r} must be a positive number")
+    return v
+
+
+def _count(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if not 1 <= v <= 100:
+        raise argparse.ArgumentTypeError(f"{text!r} must be from 1 to 100")
+    return v
+
+
+def _seed(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if v < 0:
+        raise argparse.ArgumentTypeError(f"{text!r} must be zero or positive")
+    return v
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of the ``symresp`` command."""
+    common = argparse.ArgumentParser(add_help=False)
+    common.add_argument("--quiet", "-q", action="store_true",
+                        help="do not print progress stages on stderr")
+    common.add_argument("--debug", action="store_true",
+                        help="show the Python traceback of an internal error")
+    with_case = argparse.ArgumentParser(add_help=False, parents=[common])
+    with_case.add_argument("case", metavar="CASE",
+                           help="a case file (path) or the name of a bundled case, e.g. dimer")
+    with_case.add_argument("--response", "-r", metavar="LABEL",
+                           help="only the response with this label (default: all)")
+    with_case.add_argument("--budget", type=_positive_float, metavar="SECONDS", default=600.0,
+                           help="time limit of each derivation (default: 600)")
+
+    parser = argparse.ArgumentParser(
+        prog="symresp",
+        description="Closed-form linear-response (Kubo) susceptibilities of small quantum models, "
+                    "from TOML case files.",
+        epilog="Bundled cases are searched in the directories of SYMRESP_CASES, then in the "
+               "cases/ directory of symresp. See docs/command-line.md.")
+    parser.add_argument("--version", action="version", version=f"symresp {_VERSION}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    p = sub.add_parser("list", parents=[common], help="list the bundled cases",
+                       description="List the bundled cases with one-line descriptions.")
+    p.add_argument("--paths", action="store_true", help="also print the file of each case")
+    p.set_defaults(run=_cmd_list)
+
+    p = sub.add_parser("derive", parents=[with_case], help="derive and print the response formulas",
+                       description="Derive levels, transitions, Z and the requested "
+                                   "susceptibilities of a case and print them.")
+    p.add_argument("--quantity", action="append", choices=QUANTITIES, metavar="Q",
+                   help=f"print this quantity ({', '.join(QUANTITIES)}); repeatable; default: "
+                        f"those the case asks for")
+    fmt = p.add_mutually_exclusive_group()
+    fmt.add_argument("--json", action="store_true", help="print one JSON document instead of text")
+    fmt.add_argument("--latex", action="store_true", help="print the formulas as LaTeX")
+    p.set_defaults(run=_cmd_derive)
+
+    p = sub.add_parser("verify", parents=[with_case],
+                       help="compare every derived quantity with exact diagonalisation",
+                       description="Evaluate every derived quantity at random parameter points "
+                                   "and temperatures and compare it with exact numerical "
+                                   "diagonalisation; exit status 1 on any mismatch.")
+    p.add_argument("--points", type=_count, default=3, metavar="N",
+                   help="number of random points (1-100, default 3)")
+    p.add_argument("--seed", type=_seed, default=0, metavar="S",
+                   help="seed of the random points (default 0)")
+    p.set_defaults(run=_cmd_verify)
+
+    p = sub.add_parser("plot", parents=[with_case],
+                       help="plot chi''(omega), chi(T) and chi*T to PNG files",
+                       description="Plot the broadened spectrum chi''(omega) and the static "
+                                   "susceptibilities chi(T) and chi*T against T, at the default "
+                                   "parameter values of the case (needs matplotlib).")
+    p.add_argument("--out", required=True, metavar="DIR", help="directory for the PNG files")
+    p.add_argument("--temperature", type=_positive_float, metavar="T",
+                   help="temperature of the spectrum (default: the case's energy scale)")
+    p.add_argument("--eta", type=_positive_float, metavar="ETA",
+                   help="Lorentzian half width of the spectrum (default: 2%% of the highest "
+                        "transition frequency)")
+    p.set_defaults(run=_cmd_plot)
+
+    p = sub.add_parser("emit", parents=[with_case],
+                       help="write a standalone numpy evaluator module",
+                       description="Write the standalone numpy evaluator of one response to a "
+                                   "Python file.")
+    p.add_argument("--out", required=True, metavar="FILE", help="the Python file to write")
+    p.set_defaults(run=_cmd_emit)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the ``symresp`` command with ``argv`` (default: ``sys.argv[1:]``); return the exit code.
+
+    Examples
+    --------
+    >>> from symresp.cli import main
+    >>> main(["derive", "no-such-case", "--quiet"])
+    2
+    """
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as stop:  # argparse reports usage errors (status 2) and --help (0)
+        return stop.code if isinstance(stop.code, int) else EXIT_BAD_INPUT
+    if args.command is None:
+        parser.print_help(sys.stderr)
+        return EXIT_BAD_INPUT
+    run: Callable[[argparse.Namespace, _Progress], int] = args.run
+    try:
+        return run(args, _Progress(args.quiet))
+    except InputError as err:
+        print(f"error: {err}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except SymrespError as err:  # budget exhausted, no closed form: not a bug, not bad input
+        print(f"error: {err}", file=sys.stderr)
+        return EXIT_FAILURE
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:  # output piped into a command that stopped reading (e.g. head)
+        return EXIT_FAILURE
+    except Exception as err:  # anything else is a bug: short message, traceback on request
+        if args.debug:
+            traceback.print_exc()
+        print(f"internal error: {type(err).__name__}: {err}\n{_REPORT_HINT}", file=sys.stderr)
+        return EXIT_FAILURE
+
+
+# ---------------------------------------------------------------- commands
+
+def _load(args: argparse.Namespace, progress: _Progress) -> Case:
+    path = find_case(args.case)
+    progress(f"reading {path}")
+    case = read_case(path)
+    if args.response is not None:
+        # keep only the chosen response (InputError for an unknown label)
+        case = dataclasses.replace(case, responses=(case.response(args.response),))
+    return case
+
+
+def _derive(case: Case, args: argparse.Namespace,
+            progress: _Progress) -> list[tuple[str, Derivation]]:
+    derived = list(derive_case(case, budget=Budget(seconds=args.budget), progress=progress))
+    progress("derivation done")
+    return derived
+
+
+def _quantities_of(case: Case, label: str, override: list[str] | None) -> tuple[str, ...]:
+    if override:
+        return tuple(q for q in QUANTITIES if q in override)
+    if label == "levels":
+        return ()
+    return case.response(label).quantities
+
+
+def _cmd_list(args: argparse.Namespace, progress: _Progress) -> int:
+    paths = bundled_cases()
+    if not paths:
+        dirs = ", ".join(str(d) for d in case_directories()) or "none"
+        print(f"error: no case files found (searched: {dirs}); set SYMRESP_CASES to a directory "
+              f"of case files", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    summaries = [case_summary(p) for p in paths]
+    width = max(len(p.stem) for p in paths)
+    for p, s in zip(paths, summaries):
+        line = f"{p.stem:<{width}}  {s.description}"
+        print(line + (f"\n{'':<{width}}  {p}" if args.paths else ""))
+    return EXIT_OK
+
+
+def _cmd_derive(args: argparse.Namespace, progress: _Progress) -> int:
+    case = _load(args, progress)
+    derived = _derive(case, args, progress)
+    items = [(label, d, _quantities_of(case, label, args.quantity)) for label, d in derived]
+    progress("simplifying and printing")
+    if args.json:
+        print(derivation_json(case, items))
+        return EXIT_OK
+    lines = describe_case(case)
+    if derived:
+        lines.append(f"  convention:  {derived[0][1].convention.describe()}")
+    texts = {r.label: (r.A_text, r.B_text) for r in case.responses}
+    for label, d, qs in items:
+        lines += describe_derivation(label, d, qs, texts=texts.get(label, ("", "")),
+                                     latex=args.latex)
+    print("\n".join(lines))
+    return EXIT_OK
+
+
+def _cmd_verify(args: argparse.Namespace, progress: _Progress) -> int:
+    case = _load(args, progress)
+    derived = tuple(_derive(case, args, progress))
+    result = verify_case(case, points=args.points, seed=args.seed, derivations=derived,
+                         progress=progress)
+    print(f"verify {case.name}: derived formulas against exact diagonalisation "
+          f"({case.source})")
+    print("\n".join(verification_table(result)))
+    return EXIT_OK if result.ok else EXIT_FAILURE
+
+
+def _cmd_plot(args: argparse.Namespace, progress: _Progress) -> int:
+    if not HAVE_MATPLOTLIB:
+        print("error: the plot command needs matplotlib, which is not installed; install it with "
+              "pip install symresp[plot]", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    case = _load(args, progress)
+    derived = _derive(case, args, progress)
+    if derived and derived[0][0] == "levels":
+        raise InputError(f"{case.source}: the case asks for no [[response]]; there is nothing to "
+                         f"plot")
+    out = Path(args.out)
+    if out.exists() and not out.is_dir():
+        raise InputError(f"--out {out}: exists and is not a directory")
+    for label, d in derived:
+        progress(f"computing curves of '{label}'")
+        curves = response_curves(case, label, d, temperature=args.temperature, eta=args.eta)
+        try:
+            for path in write_plots(case.name, curves, out):
+                print(path)
+        except OSError as err:
+            raise InputError(f"--out {out}: cannot write the plots ({err.strerror or err})") from None
+    return EXIT_OK
+
+
+def _cmd_emit(args: argparse.Namespace, progress: _Progress) -> int:
+    # Extension point: the evaluator writer lives in symresp.emit; this command works as soon
+    # as that layer provides numpy_module_source(derivation) -> str.
+    writer = getattr(emit_layer, "numpy_module_source", None)
+    if writer is None:
+        print("error: this installation of symresp has no evaluator writer "
+              "(symresp.emit.numpy_module_source)", file=sys.stderr)
+        return EXIT_FAILURE
+    case = _load(args, progress)
+    if not case.responses:
+        raise InputError(f"{case.source}: the case asks for no [[response]]; there is nothing to "
+                         f"emit")
+    if len(case.responses) > 1:
+        labels = ", ".join(r.label for r in case.responses)
+        raise InputError(f"{case.source}: the case has {len(case.responses)} responses ({labels}); "
+                         f"choose one with --response LABEL")
+    derived = _derive(case, args, progress)
+    label, d = derived[0]
+    progress(f"writing the evaluator of '{label}'")
+    source = writer(d)
+    out = Path(args.out)
+    try:
+        out.write_text(source, encoding="utf-8")
+    except OSError as err:
+        raise InputError(f"--out {out}: cannot write the file ({err.strerror or err})") from None
+    print(out)
+    return EXIT_OK

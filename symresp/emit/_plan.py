@@ -1,0 +1,248 @@
+r"""Structure of a derivation as the emitted evaluators need it (layer: emit).
+
+Owns :class:`Plan`: per level a the energy :math:`E_a` and degeneracy :math:`d_a`; per pair of
+levels :math:`a < b` with a non-zero weight the exact spacing :math:`w_{ab} = E_b - E_a` and
+the symmetric and antisymmetric weights :math:`S_{ab} = W_{ab} + W_{ba}`,
+:math:`D_{ab} = W_{ab} - W_{ba}`; pairs grouped by :math:`|w_{ab}|` (poles at
+:math:`\pm r_g`); per level the intra-level fluctuation
+:math:`C_a = W_{aa} - \mathrm{Tr}(P_aA)\,\mathrm{Tr}(P_aB)/d_a` and the level means
+:math:`\alpha_a = \mathrm{Tr}(P_aA)/d_a`, :math:`\beta_a = \mathrm{Tr}(P_aB)/d_a`.
+
+With these, the Lehmann sums of :mod:`symresp.response` read (:math:`p_a` the population of
+each state of level a, :math:`g_{ab} = (p_a - p_b)/w_{ab}`, symmetric in a, b):
+
+.. math::
+
+    \chi^{\rm isol} = \sum_{a<b} g_{ab} S_{ab}, \qquad
+    \chi^{\rm T} = \chi^{\rm isol} + \beta\Big[\sum_a p_a C_a
+        + \sum_a d_a p_a \alpha_a\beta_a - \Big(\sum_a d_a p_a\alpha_a\Big)
+          \Big(\sum_a d_a p_a\beta_a\Big)\Big],
+
+    \chi(z) = \sum_g r_g\,\frac{r_g G_g + H_g z}{(r_g - z)(r_g + z)}, \quad
+    G_g = \sum_{ab \in g} g_{ab} S_{ab}, \quad H_g = \sum_{ab \in g} \sigma_{ab}\, g_{ab} D_{ab},
+
+with :math:`w_{ab} = \sigma_{ab} r_g`. The bracket of :math:`\chi^{\rm T}` equals
+:math:`\sum_a p_a W_{aa} - \langle A\rangle\langle B\rangle` (the covariance of the level means
+over :math:`q_a = d_a p_a` plus the intra-level part); it is evaluated with the means shifted
+by those of the lowest level, which removes the cancellation between two nearly equal numbers
+at low temperature.
+
+Imports: sympy, :mod:`symresp.errors`, :mod:`symresp.response`, :mod:`symresp.spectrum`.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import keyword
+import re
+from dataclasses import dataclass
+
+import sympy as sp
+
+from ..errors import ClosedFormError, InputError
+from ..response import Derivation
+from ..spectrum import clean
+
+__all__ = ["Plan", "Pair", "Group", "build_plan", "fingerprint", "is_zero"]
+
+#: Names a parameter may not take in the generated code (independent variables, modules,
+#: keywords of the generated functions).
+_TAKEN = frozenset({"T", "omega", "t", "eta", "kind", "shape", "numpy", "math", "np", "grid",
+                    "ps", "scalar", "values", "value"})
+#: Digits of the numeric keys used to find candidate equal spacings before an exact check.
+_KEY_DIGITS = 25
+#: |value| below which a high-precision evaluation counts as an exact zero.
+_ZERO_CUTOFF = sp.Float("1e-40")
+
+
+@dataclass(frozen=True, slots=True)
+class Pair:
+    """Two levels ``a < b`` joined by a non-zero weight."""
+
+    a: int
+    b: int
+    w: sp.Expr          # E_b - E_a, exact
+    S: sp.Expr          # W_ab + W_ba
+    D: sp.Expr          # W_ab - W_ba (zero for A = B Hermitian)
+
+
+@dataclass(frozen=True, slots=True)
+class Group:
+    """Pairs with the same |spacing|: ``w = sign * w_rep`` for each member."""
+
+    rep: int                                 # index (into Plan.pairs) of the representative
+    members: tuple[tuple[int, int], ...]     # (pair index, sign)
+
+
+@dataclass(frozen=True, slots=True)
+class Plan:
+    """Everything the code generator reads from a derivation (see the module docstring)."""
+
+    parameters: tuple[sp.Symbol, ...]        # code-safe symbols, in signature order
+    original: tuple[sp.Symbol, ...]          # the model's symbols, same order
+    energies: tuple[sp.Expr, ...]
+    degeneracies: tuple[int, ...]
+    pairs: tuple[Pair, ...]
+    groups: tuple[Group, ...]
+    fluctuation: tuple[sp.Expr, ...]         # C_a per level
+    mean_a: tuple[sp.Expr, ...]              # alpha_a per level
+    mean_b: tuple[sp.Expr, ...]              # beta_a per level
+    sign: int                                # convention: perturbation sign
+    frequency_sign: int                      # convention: Fourier sign
+    prescription: int                        # +1 retarded, -1 advanced
+
+    @property
+    def has_covariance(self) -> bool:
+        return any(v != 0 for v in self.mean_a) and any(v != 0 for v in self.mean_b)
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return tuple(p.name for p in self.parameters)
+
+    def is_complex(self, *exprs: sp.Expr) -> bool:
+        return any(sp.sympify(e).has(sp.I) for e in exprs)
+
+
+def _sample(symbols, k: int) -> dict:
+    # Irrational-looking rationals, fixed: deterministic numeric keys and zero tests.
+    return {s: sp.Rational(1000 + 37 * (i + 1) * (k + 2), 997 + 13 * i + 5 * k) for i, s in enumerate(symbols)}
+
+
+def is_zero(expr: sp.Expr) -> bool:
+    """Exact zero test: expansion, then high-precision evaluation at fixed points."""
+    expr = sp.sympify(expr)
+    if expr == 0:
+        return True
+    if not expr.free_symbols:
+        return abs(sp.N(expr, 50)) < _ZERO_CUTOFF
+    if expr.is_rational_function():
+        # Rational in the parameters: cancellation decides exactly.
+        return sp.cancel(expr) == 0
+    if sp.expand(expr) == 0:
+        return True
+    syms = sorted(expr.free_symbols, key=lambda s: s.name)
+    for k in range(3):
+        value = sp.N(expr.subs(_sample(syms, k)), 50)
+        if abs(value) >= _ZERO_CUTOFF:
+            return False
+    return True
+
+
+def _tidy(expr: sp.Expr, implicit: bool) -> sp.Expr:
+    expr = sp.sympify(expr)
+    return expr if implicit else clean(expr)
+
+
+def _safe_names(symbols: tuple[sp.Symbol, ...]) -> tuple[sp.Symbol, ...]:
+    """Python identifiers for the parameters, as close to the physics names as possible."""
+    used: set[str] = set()
+    out = []
+    for s in symbols:
+        name = re.sub(r"\W", "_", s.name)
+        if not name or name[0].isdigit() or name.startswith("_"):
+            name = "p" + name
+        if keyword.iskeyword(name) or name in _TAKEN:
+            name += "_"
+        while name in used:
+            name += "_"
+        used.add(name)
+        out.append(sp.Symbol(name, **s.assumptions0))
+    return tuple(out)
+
+
+def fingerprint(d: Derivation) -> str:
+    """sha256 of a canonical text of the model (H, sector, sites) and of A and B."""
+    system = d.system
+    parts = [
+        "H=" + repr(system.hamiltonian),
+        "sites=" + repr(tuple(system.sites)),
+        "sector=" + repr(tuple((repr(op), sp.srepr(v)) for op, v in system.sector)),
+        "A=" + repr(d.A),
+        "B=" + repr(d.B),
+        "parameters=" + repr(tuple((p.name, sorted(p.assumptions0.items())) for p in system.parameters)),
+    ]
+    return hashlib.sha256("\n".join(parts).encode()).hexdigest()
+
+
+def build_plan(d: Derivation) -> Plan:
+    """Read levels, pairs, groups and level coefficients off a :class:`Derivation`."""
+    levels = d.levels
+    L = len(levels)
+    symbols: set[sp.Symbol] = set(d.system.parameters)
+    for lv in levels:
+        symbols |= lv.energy.free_symbols
+    for v in (*d.level_weights.values(), *d.expect_A.values(), *d.expect_B.values()):
+        symbols |= sp.sympify(v).free_symbols
+    original = tuple(sorted(symbols, key=lambda s: s.name))
+    for lv in levels:
+        if lv.implicit and any(r.free_symbols for r in lv.energy.atoms(sp.CRootOf)):
+            raise ClosedFormError(f"emit: the level {lv.energy} is a root of a polynomial with "
+                                  "parameter-dependent coefficients; no evaluator can be emitted")
+    safe = _safe_names(original)
+    rename = dict(zip(original, safe))
+
+    def sub(e: sp.Expr) -> sp.Expr:
+        return sp.sympify(e).xreplace(rename)
+
+    energies = tuple(sub(lv.energy) for lv in levels)
+    implicit = tuple(lv.implicit for lv in levels)
+    W = {k: sub(v) for k, v in d.level_weights.items()}
+
+    pairs: list[Pair] = []
+    for a in range(L):
+        for b in range(a + 1, L):
+            wab, wba = W.get((a, b), sp.Integer(0)), W.get((b, a), sp.Integer(0))
+            if wab == 0 and wba == 0:
+                continue
+            imp = implicit[a] or implicit[b]
+            S = _tidy(wab + wba, imp)
+            D = _tidy(wab - wba, imp)
+            if is_zero(D):
+                D = sp.Integer(0)
+            if is_zero(S) and D == 0:
+                continue
+            pairs.append(Pair(a, b, _tidy(energies[b] - energies[a], imp), S, D))
+
+    groups = _group_pairs(pairs, safe)
+
+    eA = {a: sub(v) for a, v in d.expect_A.items()}
+    eB = {a: sub(v) for a, v in d.expect_B.items()}
+    fluct, mean_a, mean_b = [], [], []
+    for a, lv in enumerate(levels):
+        g = lv.degeneracy
+        ea, eb = eA.get(a, sp.Integer(0)), eB.get(a, sp.Integer(0))
+        C = _tidy(W.get((a, a), sp.Integer(0)) - ea * eb / g, implicit[a])
+        fluct.append(sp.Integer(0) if is_zero(C) else C)
+        mean_a.append(_tidy(ea / g, implicit[a]))
+        mean_b.append(_tidy(eb / g, implicit[a]))
+
+    conv = d.convention
+    return Plan(safe, original, energies, tuple(lv.degeneracy for lv in levels), tuple(pairs),
+                groups, tuple(fluct), tuple(mean_a), tuple(mean_b), conv.sign,
+                conv.frequency_sign, 1 if conv.prescription == "retarded" else -1)
+
+
+def _group_pairs(pairs: list[Pair], symbols: tuple[sp.Symbol, ...]) -> tuple[Group, ...]:
+    """Group pairs whose spacings agree up to sign (one pole pair +-r_g per group)."""
+    point = _sample(symbols, 0)
+    buckets: dict[str, list[int]] = {}
+    groups: list[list[tuple[int, int]]] = []
+    for k, p in enumerate(pairs):
+        value = sp.N(p.w.subs(point), 40)
+        if value.has(sp.I) or not value.is_real:
+            raise InputError(f"emit: level spacing {p.w} is not real")
+        key = sp.Float(abs(value), 40).__format__(f".{_KEY_DIGITS}e")
+        placed = False
+        for gi in buckets.get(key, []):
+            rep = pairs[groups[gi][0][0]].w
+            for sign in (1, -1):
+                if is_zero(p.w - sign * rep):
+                    groups[gi].append((k, sign))
+                    placed = True
+                    break
+            if placed:
+                break
+        if not placed:
+            buckets.setdefault(key, []).append(len(groups))
+            groups.append([(k, 1)])
+    return tuple(Group(g[0][0], tuple(g)) for g in groups)

@@ -1,0 +1,131 @@
+r"""Code printers of the emitted evaluators (layer: emit).
+
+Two printer subclasses turn the sympy assignments of an evaluator program into Python:
+
+* :class:`ArrayPrinter` (a :class:`sympy.printing.numpy.NumPyPrinter`) for arrays that
+  broadcast together;
+* :class:`ScalarPrinter` (a :class:`sympy.printing.pycode.PythonCodePrinter`, ``math``
+  functions) for the fast path where every input is a single number: a numpy call on a
+  0-d value costs about a microsecond, a ``math`` call a few tens of nanoseconds.
+
+Both print the program's special functions (:mod:`symresp.emit._functions`) as calls to the
+runtime helpers of the generated module (suffix ``_a`` for arrays, ``_s`` for scalars), and
+implicit roots (``CRootOf``, exact constants) as float literals of their value to 30 digits.
+Nothing is produced by editing strings: each construct has a ``_print_<Class>`` method.
+
+Imports: sympy and :mod:`._functions`.
+"""
+
+from __future__ import annotations
+
+import sympy as sp
+from sympy.printing.numpy import NumPyPrinter
+from sympy.printing.pycode import PythonCodePrinter
+
+from ._functions import AtMin, Boltzmann, Causal, DegeneracyTol, ExpDiv, ExpDiv2, Keep, LevelMin
+
+__all__ = ["ArrayPrinter", "ScalarPrinter", "freeze_constants", "DIGITS"]
+
+#: Decimal digits of the literals printed for irrational constants (implicit roots, sqrt(5), ...).
+DIGITS = 30
+
+
+def _float(value: sp.Expr) -> sp.Float:
+    return sp.Float(sp.N(value, DIGITS), DIGITS)
+
+
+def freeze_constants(expr: sp.Expr) -> sp.Expr:
+    r"""Replace every irrational constant sub-expression by a 30-digit Float.
+
+    A weight such as :math:`(7r^2 - 3r + 1)/20` with an implicit root :math:`r` is a single
+    exact number; evaluating it once at high precision is both faster and more accurate than
+    evaluating the polynomial in double precision at run time. Rational numbers stay exact
+    (printed as ``p/q``, folded by the Python compiler).
+    """
+    if not isinstance(expr, sp.Basic) or expr.is_Atom:
+        if isinstance(expr, sp.NumberSymbol):
+            return _float(expr)
+        return expr
+    if expr.is_number:
+        if expr.is_Rational:
+            return expr
+        value = sp.N(expr, DIGITS)
+        if value.is_real is False or value.has(sp.I):
+            re, im = value.as_real_imag()
+            return _float(re) + sp.I * _float(im) if im != 0 else _float(re)
+        return _float(value)
+    if isinstance(expr, (sp.Mul, sp.Add)):
+        numbers = [a for a in expr.args if a.is_number]
+        others = [freeze_constants(a) for a in expr.args if not a.is_number]
+        if len(numbers) > 1 or (numbers and not numbers[0].is_Rational):
+            numbers = [freeze_constants(expr.func(*numbers))]
+        return expr.func(*numbers, *others)
+    return expr.func(*[freeze_constants(a) for a in expr.args])
+
+
+class _ProgramPrinting:
+    """``_print_<Class>`` methods shared by both printers; ``_suffix`` selects the helpers."""
+
+    _suffix = "_a"
+
+    def _helper(self, name: str, *args: sp.Expr) -> str:
+        return f"_{name}{self._suffix}({', '.join(self._print(a) for a in args)})"
+
+    def _print_Boltzmann(self, expr: Boltzmann) -> str:
+        return self._helper("bexp", *expr.args)
+
+    def _print_ExpDiv(self, expr: ExpDiv) -> str:
+        xa, xb, beta, w, _ca, _cb = expr.args
+        return self._helper("expdiv", xa, xb, beta, w)
+
+    def _print_ExpDiv2(self, expr: ExpDiv2) -> str:
+        return self._helper("expdiv2", *expr.args)
+
+    def _print_Keep(self, expr: Keep) -> str:
+        return self._helper("keep", *expr.args)
+
+    def _print_LevelMin(self, expr: LevelMin) -> str:
+        return self._helper("lmin", *expr.args)
+
+    def _print_AtMin(self, expr: AtMin) -> str:
+        n = int(expr.args[0])
+        energies = "(" + ", ".join(self._print(e) for e in expr.args[1:1 + n]) + ",)"
+        values = "(" + ", ".join(self._print(v) for v in expr.args[1 + n:]) + ",)"
+        return f"_atmin{self._suffix}({energies}, {values})"
+
+    def _print_DegeneracyTol(self, expr: DegeneracyTol) -> str:
+        return self._helper("degtol", *expr.args)
+
+    def _print_Causal(self, expr: Causal) -> str:
+        return self._helper("causal", *expr.args)
+
+    def _print_ComplexRootOf(self, expr: sp.Expr) -> str:
+        # An implicit root has rational coefficients: an exact constant, printed as its value.
+        if expr.free_symbols:
+            raise ValueError(f"cannot print the parameter-dependent root {expr}")
+        return self._print(_float(expr))
+
+    _print_CRootOf = _print_ComplexRootOf
+    _print_RootOf = _print_ComplexRootOf
+
+    def _print_ImaginaryUnit(self, expr: sp.Expr) -> str:
+        return "1j"
+
+
+class ArrayPrinter(_ProgramPrinting, NumPyPrinter):
+    """numpy printer for the array path (functions broadcast over their arguments)."""
+
+    _suffix = "_a"
+
+    def _print_Pow(self, expr: sp.Pow, rational: bool = False) -> str:
+        # The program's values are floats, never integer arrays, so integer exponents may stay
+        # integers: ``1/x`` and ``x**2`` take numpy's fast paths, ``x**(-1.0)`` does not.
+        if expr.exp.is_Integer:
+            return PythonCodePrinter._print_Pow(self, expr, rational=rational)
+        return super()._print_Pow(expr, rational=rational)
+
+
+class ScalarPrinter(_ProgramPrinting, PythonCodePrinter):
+    """``math`` printer for the all-scalar fast path."""
+
+    _suffix = "_s"

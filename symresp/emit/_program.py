@@ -1,0 +1,381 @@
+r"""Evaluator programs: straight-line sympy assignments in three stages (layer: emit).
+
+An evaluator is split by what its values depend on, so that work is done once per call at the
+coarsest level possible:
+
+* stage P (parameters only): level energies, exact spacings, weights, level coefficients and
+  their parameter derivatives, with shared sub-expressions found by :func:`sympy.cse`;
+* stage B (temperature): Boltzmann factors relative to the lowest level, the partition sum,
+  the stable thermal pair factors and the static susceptibilities, or the pole coefficients;
+* stage W (frequency or time): the pole sum on the grid.
+
+A :class:`Program` is printed once with the array printer and, for stages P and B, once with
+the scalar printer (the all-scalar fast path). The Jacobian program is obtained by forward
+differentiation of the stage-B program (:func:`differentiate`), using the ``fdiff`` of the
+functions in :mod:`._functions`; derivatives of the stage-P quantities are exact symbolic
+derivatives.
+
+Imports: sympy, :mod:`._functions`, :mod:`._plan`, :mod:`._printers`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import sympy as sp
+
+from ._functions import AtMin, Boltzmann, Causal, DegeneracyTol, ExpDiv, Keep, LevelMin
+from ._plan import Plan
+from ._printers import freeze_constants
+
+__all__ = ["Program", "params_program", "static_program", "jacobian_program",
+           "poles_program", "omega_program", "spectral_program", "time_program",
+           "energies_program", "differentiate", "BETA", "DEGENERACY_RTOL"]
+
+#: Relative level-grouping tolerance of the isolated susceptibility, as in symresp.numeric.
+DEGENERACY_RTOL = sp.Float("1e-9")
+
+BETA = sp.Symbol("_beta", positive=True)
+_X = sp.Symbol("_x", real=True)          # omega or t on the grid
+_ETA = sp.Symbol("_eta", positive=True)
+_Z = sp.Symbol("_z")
+
+
+def _s(name: str, real: bool = True) -> sp.Symbol:
+    return sp.Symbol(name, real=True) if real else sp.Symbol(name)
+
+
+@dataclass(frozen=True, slots=True)
+class Program:
+    """A function body: ``lines`` of (symbol, expression), the tuple it unpacks and returns."""
+
+    name: str
+    args: tuple[str, ...]
+    unpack: tuple[sp.Symbol, ...]            # names unpacked from the argument ``_P``
+    lines: tuple[tuple[sp.Symbol, sp.Expr], ...]
+    returns: tuple[sp.Expr, ...]
+    single: bool = False                     # return returns[0] rather than a tuple
+
+
+# ---------------------------------------------------------------------------------- symbols
+def _E(a): return _s(f"_E{a}")
+def _c(a): return sp.Symbol(f"_c{a}", nonnegative=True)
+def _w(k): return _s(f"_w{k}")
+def _S(k): return _s(f"_S{k}", real=False)
+def _D(k): return _s(f"_D{k}", real=False)
+def _C(a): return _s(f"_C{a}", real=False)
+def _al(a): return _s(f"_al{a}", real=False)
+def _be(a): return _s(f"_be{a}", real=False)
+def _da(a): return _s(f"_da{a}", real=False)     # alpha_a minus alpha of the lowest level
+def _db(a): return _s(f"_db{a}", real=False)
+def _x(a): return sp.Symbol(f"_x{a}", positive=True)
+def _g(k): return sp.Symbol(f"_g{k}", nonnegative=True)
+def _dv(q: sp.Symbol, i: int) -> sp.Symbol:      # d q / d theta_i, stage P
+    return _s(f"{q.name}_d{i}", real=False)
+
+
+_TOL = _s("_tol")
+_EMIN = _s("_emin")
+
+
+def _freeze(e: sp.Expr) -> sp.Expr:
+    return freeze_constants(sp.sympify(e))
+
+
+# ---------------------------------------------------------------------------------- stage P
+def params_program(plan: Plan, kind: str) -> Program:
+    """Stage P for ``kind`` in {"isothermal", "isolated", "jacobian", "dynamic"}.
+
+    Returns the level offsets ``c_a = E_a - E_min``, the spacings ``w_k``, weights and level
+    coefficients (and their derivatives for "jacobian") that stage B reads.
+    """
+    L = len(plan.energies)
+    theta = plan.parameters
+    targets: list[tuple[sp.Symbol, sp.Expr]] = [(_E(a), e) for a, e in enumerate(plan.energies)]
+    targets += [(_w(k), p.w) for k, p in enumerate(plan.pairs)]
+    targets += [(_S(k), p.S) for k, p in enumerate(plan.pairs) if p.S != 0]
+    if kind == "dynamic":
+        targets += [(_D(k), p.D) for k, p in enumerate(plan.pairs) if p.D != 0]
+    elif kind != "isolated":
+        targets += [(_C(a), C) for a, C in enumerate(plan.fluctuation) if C != 0]
+        if plan.has_covariance:
+            targets += [(_al(a), v) for a, v in enumerate(plan.mean_a)]
+            targets += [(_be(a), v) for a, v in enumerate(plan.mean_b)]
+    derivs: list[tuple[sp.Symbol, sp.Expr]] = []
+    if kind == "jacobian":
+        for i, th in enumerate(theta):
+            for sym, expr in targets:
+                if sym.name.startswith("_w"):
+                    continue              # spacings are cached values (see ExpDiv)
+                d = sp.diff(expr, th)
+                if d != 0:
+                    derivs.append((_dv(sym, i), d))
+    all_targets = targets + derivs
+    exprs = [_freeze(e) for _, e in all_targets]
+    repl, reduced = sp.cse(exprs, symbols=sp.numbered_symbols("_q"), order="canonical")
+    lines = [(s, e) for s, e in repl] + [(sym, e) for (sym, _), e in zip(all_targets, reduced)]
+    energies = [_E(a) for a in range(L)]
+    lines.append((_EMIN, LevelMin(*energies)))
+    lines += [(_c(a), _E(a) - _EMIN) for a in range(L)]
+    out: list[sp.Expr] = [_c(a) for a in range(L)] + [_w(k) for k in range(len(plan.pairs))]
+    out += [s for s, _ in targets if s.name.startswith(("_S", "_D", "_C"))]
+    if kind in ("isolated", "jacobian"):
+        lines.append((_TOL, DegeneracyTol(DEGENERACY_RTOL, *energies)))
+        out.append(_TOL)
+    if kind in ("isothermal", "jacobian"):
+        if plan.has_covariance:
+            ref_a = _s("_ala", real=False)
+            ref_b = _s("_bea", real=False)
+            lines.append((ref_a, AtMin(L, *energies, *[_al(a) for a in range(L)])))
+            lines.append((ref_b, AtMin(L, *energies, *[_be(a) for a in range(L)])))
+            lines += [(_da(a), _al(a) - ref_a) for a in range(L)]
+            lines += [(_db(a), _be(a) - ref_b) for a in range(L)]
+            out += [_da(a) for a in range(L)] + [_db(a) for a in range(L)]
+    out += [s for s, _ in derivs]
+    return Program(f"_params_{kind}", tuple(p.name for p in theta), (), tuple(lines), tuple(out))
+
+
+def energies_program(plan: Plan) -> Program:
+    """Level energies only (for ``energies(*params)``)."""
+    exprs = [_freeze(e) for e in plan.energies]
+    repl, reduced = sp.cse(exprs, symbols=sp.numbered_symbols("_q"), order="canonical")
+    lines = list(repl) + [(_E(a), e) for a, e in enumerate(reduced)]
+    return Program("_energies", tuple(p.name for p in plan.parameters), (), tuple(lines),
+                   tuple(_E(a) for a in range(len(plan.energies))))
+
+
+# ---------------------------------------------------------------------------------- stage B
+def _thermal_lines(plan: Plan) -> list[tuple[sp.Symbol, sp.Expr]]:
+    """Boltzmann factors, partition sum and stable pair factors g~_k = (x_a - x_b)/(beta w)."""
+    L = len(plan.energies)
+    lines = [(_x(a), Boltzmann(BETA, _c(a))) for a in range(L)]
+    Z = sp.Symbol("_Zr", positive=True)
+    lines.append((Z, sp.Add(*[d * _x(a) for a, d in enumerate(plan.degeneracies)])))
+    for k, p in enumerate(plan.pairs):
+        lines.append((_g(k), ExpDiv(_x(p.a), _x(p.b), BETA, _w(k), _c(p.a), _c(p.b))))
+    return lines
+
+
+_ZR = sp.Symbol("_Zr", positive=True)
+
+
+def _static_lines(plan: Plan, kind: str) -> tuple[list, sp.Symbol]:
+    lines = _thermal_lines(plan)
+    pair_sum = []
+    for k, p in enumerate(plan.pairs):
+        if p.S == 0:
+            continue
+        term = _S(k) * _g(k)
+        pair_sum.append(Keep(_w(k), _TOL) * term if kind == "isolated" else term)
+    chi = sp.Symbol("_chi", real=False)
+    if kind == "isolated":
+        N = sp.Add(*pair_sum)
+        lines.append((chi, plan.sign * BETA * N / _ZR))
+        return lines, chi
+    elastic = [_C(a) * _x(a) for a, C in enumerate(plan.fluctuation) if C != 0]
+    N = sp.Symbol("_N", real=False)
+    if plan.has_covariance:
+        elastic += [d * _da(a) * _db(a) * _x(a) for a, d in enumerate(plan.degeneracies)]
+        Ma, Mb = sp.Symbol("_Ma", real=False), sp.Symbol("_Mb", real=False)
+        lines.append((Ma, sp.Add(*[d * _da(a) * _x(a) for a, d in enumerate(plan.degeneracies)])))
+        lines.append((Mb, sp.Add(*[d * _db(a) * _x(a) for a, d in enumerate(plan.degeneracies)])))
+        lines.append((N, sp.Add(*pair_sum, *elastic)))
+        lines.append((chi, plan.sign * BETA * (N - Ma * Mb / _ZR) / _ZR))
+    else:
+        lines.append((N, sp.Add(*pair_sum, *elastic)))
+        lines.append((chi, plan.sign * BETA * N / _ZR))
+    return lines, chi
+
+
+def _prune(lines: list, outputs: list) -> list:
+    """Drop assignments no output depends on (e.g. the partition sum of an empty response)."""
+    need = set().union(*[sp.sympify(o).free_symbols for o in outputs]) if outputs else set()
+    kept = []
+    for sym, expr in reversed(lines):
+        if sym in need:
+            kept.append((sym, expr))
+            need |= expr.free_symbols
+    return kept[::-1]
+
+
+def static_program(plan: Plan, kind: str, unpack: tuple) -> Program:
+    """Stage B: the static susceptibility ``kind`` ("isothermal" or "isolated") at beta.
+
+    ``unpack`` is the output tuple of the stage-P program ``params_program(plan, kind)``.
+    """
+    lines, chi = _static_lines(plan, kind)
+    lines = _prune(lines, [chi])
+    return Program(f"_{kind}", ("_beta", "_P"), unpack, tuple(lines), (chi,), single=True)
+
+
+def _forward(expr: sp.Expr, d: dict) -> sp.Expr:
+    """Directional derivative of ``expr`` given the derivatives ``d`` of its symbols."""
+    if expr.is_Add:
+        # Term by term: each term holds a few symbols, the whole sum hundreds.
+        return sp.Add(*[_forward(a, d) for a in expr.args])
+    total = sp.Integer(0)
+    for f in sorted(expr.free_symbols, key=lambda s: s.name):
+        df = d.get(f, 0)
+        if df != 0:
+            total += sp.diff(expr, f) * df
+    return total
+
+
+def differentiate(lines: list, seeds: dict, tag: str) -> tuple[list, dict]:
+    """Forward-mode derivative of a straight-line program.
+
+    ``seeds`` maps input symbols to their derivative symbols; every assigned symbol ``y = f(..)``
+    gets ``d y = sum_j (df/dx_j) d x_j`` (sympy ``diff``, with the ``fdiff`` of the special
+    functions), named ``<y>_<tag>``. Function values that the program already holds in a symbol
+    (the Boltzmann factors) are put back in terms of that symbol.
+    """
+    held = {expr: sym for sym, expr in lines if isinstance(expr, sp.Function)}
+    d = dict(seeds)
+    out = []
+    for sym, expr in lines:
+        total = _forward(expr, d).xreplace(held)
+        if total == 0:
+            d[sym] = sp.Integer(0)
+            continue
+        dsym = sp.Symbol(f"{sym.name}_{tag}", **({"real": True} if sym.is_real else {}))
+        out.append((dsym, total))
+        d[sym] = dsym
+    return out, d
+
+
+def jacobian_program(plan: Plan, kind: str, P_out: tuple) -> Program:
+    """Stage B: the derivatives of the static susceptibility with respect to each parameter.
+
+    ``P_out`` is the output tuple of ``params_program(plan, "jacobian")``.
+    """
+    base, chi = _static_lines(plan, kind)
+    base = _prune(base, [chi])
+    available = {s.name for s in P_out}
+    lines = list(base)
+    results = []
+    for i, _ in enumerate(plan.parameters):
+        seeds = {}
+        for a in range(len(plan.energies)):
+            name = f"_E{a}_d{i}"
+            if name in available:
+                seeds[_c(a)] = _s(name, real=False)
+        for q in [_S(k) for k in range(len(plan.pairs))] + [_C(a) for a in range(len(plan.energies))]:
+            if f"{q.name}_d{i}" in available:
+                seeds[q] = _s(f"{q.name}_d{i}", real=False)
+        for a in range(len(plan.energies)):
+            if f"_al{a}_d{i}" in available:
+                seeds[_da(a)] = _s(f"_al{a}_d{i}", real=False)
+            if f"_be{a}_d{i}" in available:
+                seeds[_db(a)] = _s(f"_be{a}_d{i}", real=False)
+        dlines, dmap = differentiate(base, seeds, f"d{i}")
+        lines += dlines
+        results.append(dmap.get(chi, sp.Integer(0)))
+    return Program(f"_jacobian_{kind}", ("_beta", "_P"), P_out, tuple(lines), tuple(results))
+
+
+def poles_program(plan: Plan, what: str, unpack: tuple) -> Program:
+    r"""Stage B of the dynamic functions: per group g the pole position r_g and coefficients.
+
+    ``what``: "omega" -> (r^2, r^2 G, r H); "spectral" -> (r, r (G+H)/2, r (H-G)/2);
+    "time" -> (r, r G, r H). See :mod:`._plan` for G_g and H_g.
+    """
+    lines = _thermal_lines(plan)
+    out: list[sp.Expr] = []
+    for gi, grp in enumerate(plan.groups):
+        G = sp.Add(*[_S(k) * _g(k) for k, _ in grp.members if plan.pairs[k].S != 0])
+        H = sp.Add(*[sg * _D(k) * _g(k) for k, sg in grp.members if plan.pairs[k].D != 0])
+        Gs, Hs = sp.Symbol(f"_G{gi}", real=False), sp.Symbol(f"_H{gi}", real=False)
+        r = _w(grp.rep)
+        lines.append((Gs, BETA * G / _ZR))
+        if H != 0:
+            lines.append((Hs, BETA * H / _ZR))
+        else:
+            Hs = sp.Integer(0)
+        if what == "omega":
+            out += [r**2, r**2 * Gs, r * Hs]
+        elif what == "spectral":
+            out += [r, r * (Gs + Hs) / 2, r * (Hs - Gs) / 2]
+        else:
+            out += [r, r * Gs, r * Hs]
+    lines = _prune(lines, out)
+    return Program(f"_poles_{what}", ("_beta", "_P"), unpack, tuple(lines), tuple(out))
+
+
+# ---------------------------------------------------------------------------------- stage W
+def _coefficients(plan: Plan) -> list[tuple[sp.Symbol, sp.Symbol, sp.Symbol]]:
+    return [(_s(f"_r{g}"), _s(f"_u{g}", real=False), _s(f"_v{g}", real=False))
+            for g in range(len(plan.groups))]
+
+
+def omega_program(plan: Plan) -> Program:
+    r""":math:`\chi(z) = s\sum_g (u_g + v_g z)/(r_g^2 - z^2)` at :math:`z = \sigma\omega + i p \eta`.
+
+    The coefficients arrive as (r_g^2, u_g, v_g) and :math:`z^2` is formed once per call, so a
+    pole pair costs two array operations and an accumulation. Next to a pole the relative
+    rounding error is about :math:`\epsilon\, r_g / |r_g - z|`: the same as that of the pole
+    position r_g itself, which is known to a relative :math:`\epsilon` only.
+    """
+    coeff = _coefficients(plan)
+    zz = sp.Symbol("_zz")
+    lines = [(_Z, plan.frequency_sign * _X + sp.I * plan.prescription * _ETA), (zz, _Z**2)]
+    acc = sp.Symbol("_acc")
+    terms = []
+    for (r2, u, v), grp in zip(coeff, plan.groups):
+        has_d = any(plan.pairs[k].D != 0 for k, _ in grp.members)
+        terms.append((u + v * _Z if has_d else u) / (r2 - zz))
+    return _accumulate("_omega_w", ("_x", "_eta", "_P"), coeff, lines, terms, plan.sign, acc)
+
+
+def _accumulate(name, args, coeff, lines, terms, factor, acc) -> Program:
+    body = list(lines)
+    terms = [t for t in terms if t != 0]
+    if not terms:
+        return Program(name, args, tuple(s for c in coeff for s in c), tuple(body),
+                       (sp.Integer(0) * _X,), single=True)
+    for i, term in enumerate(terms):
+        body.append((acc, term if i == 0 else acc + term))
+    return Program(name, args, tuple(s for c in coeff for s in c), tuple(body),
+                   (factor * acc if factor != 1 else acc,), single=True)
+
+
+def spectral_program(plan: Plan, shape: str) -> Program:
+    r""":math:`\chi''(\omega) = s\sigma\sum_g [u_g\,L(\sigma\omega - r_g) + v_g\,L(\sigma\omega + r_g)]`,
+    L a Lorentzian of half width :math:`\eta` (area :math:`\pi`) or a Gaussian of the same
+    half width at half maximum and area."""
+    coeff = _coefficients(plan)
+    om = sp.Symbol("_om", real=True)
+    lines = [(om, plan.frequency_sign * _X)]
+    if shape == "lorentzian":
+        e2 = sp.Symbol("_eta2", positive=True)
+        lines.append((e2, _ETA**2))
+
+        def line(x):
+            return _ETA / (x**2 + e2)
+    else:
+        k = sp.Symbol("_gk", positive=True)       # 1/sigma, sigma = eta / sqrt(2 ln 2)
+        norm = sp.Symbol("_gn", positive=True)    # pi / (sigma sqrt(2 pi))
+        lines.append((k, sp.sqrt(2 * sp.log(2)) / _ETA))
+        lines.append((norm, sp.sqrt(sp.pi / 2) * k))
+
+        def line(x):
+            return norm * sp.exp(-(x * k) ** 2 / 2)
+    lines = [(s, _freeze(e)) for s, e in lines]
+    terms = []
+    for r, u, v in coeff:
+        terms.append(u * line(om - r) + v * line(om + r))
+    acc = sp.Symbol("_acc", real=True)
+    return _accumulate(f"_spectral_{shape}_w", ("_x", "_eta", "_P"), coeff, lines, terms,
+                       plan.sign * plan.frequency_sign, acc)
+
+
+def time_program(plan: Plan) -> Program:
+    r""":math:`\chi(t) = s\,\theta(t)\sum_g [u_g \sin(r_g t) + i v_g \cos(r_g t)]` (retarded)."""
+    coeff = _coefficients(plan)
+    terms = []
+    for (r, u, v), grp in zip(coeff, plan.groups):
+        has_d = any(plan.pairs[k].D != 0 for k, _ in grp.members)
+        terms.append(u * sp.sin(r * _X) + (sp.I * v * sp.cos(r * _X) if has_d else 0))
+    acc = sp.Symbol("_acc")
+    prog = _accumulate("_time_w", ("_x", "_eta", "_P"), coeff, [], terms, plan.sign, acc)
+    value = prog.returns[0]
+    return Program(prog.name, prog.args, prog.unpack, prog.lines, (Causal(_X, value),), single=True)

@@ -1,0 +1,281 @@
+r"""Fixed runtime support copied verbatim into every emitted module (layer: emit).
+
+This text is the same for every model: input checks, the chunked drivers and the numerically
+stable helpers that the printers call (``_bexp``, ``_expdiv``, ``_expdiv2``, ...), each in an
+array (``_a``) and a scalar (``_s``) flavour. Model-specific code is never spliced into it; it
+is printed separately by :mod:`symresp.emit._printers`. A test imports the emitted modules in
+a process where sympy cannot be imported, so this text must use numpy and the standard library
+only.
+
+Stable forms (:math:`y = \beta|w| \ge 0`):
+
+* :math:`\varphi(y) = (1 - e^{-y})/y = -\mathrm{expm1}(-y)/y`, :math:`\varphi(0) = 1`;
+* :math:`\psi(y) = (1 - e^{-y} - y)/y^2`, series below :math:`y = 10^{-2}`;
+* :math:`\psi(y) + \varphi(y) = (1 - e^{-y}(1 + y))/y^2`, series below :math:`y = 10^{-2}`.
+
+Imports: nothing (a text constant).
+"""
+
+RUNTIME = r'''
+# ------------------------------------------------------------------------------------------
+# Runtime support (the same in every emitted module).
+# ------------------------------------------------------------------------------------------
+
+#: Grid points handled per pass: real temporaries of 128 KiB, complex ones of 128 KiB, at or
+#: below the allocator's mmap threshold, so no call page-faults fresh memory for every
+#: intermediate array (measured: numpy arithmetic on 256 KiB temporaries costs 3-4 times more
+#: per element on the development machines than on 128 KiB ones).
+_CHUNK = 16384
+_CHUNK_COMPLEX = 8192
+#: Smallest beta*|w| used in a division (the limit value applies below it).
+_TINY = 1e-300
+#: Below this y the series of psi are used (truncation error < 3e-13 relative).
+_SERIES = 1e-2
+#: Level-grouping tolerance of the isolated susceptibility, relative to max(1, max|E|).
+_DEGENERACY_RTOL = 1e-9
+_F64 = numpy.dtype(float)
+_C128 = numpy.dtype(complex)
+
+
+def _real_input(name, value):
+    """A float, or a float64 ndarray of dimension >= 1."""
+    if type(value) is float:
+        return value
+    if type(value) is numpy.ndarray and value.dtype == numpy.float64 and value.ndim:
+        return value
+    try:
+        arr = numpy.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        raise ValueError(f"{name}={value!r} must be real numbers") from None
+    return float(arr) if arr.ndim == 0 else arr
+
+
+def _temperature(T):
+    T = _real_input("T", T)
+    ok = T > 0 if type(T) is float else (T.size == 0 or T.min() > 0)
+    if not ok:
+        raise ValueError("T must be > 0 (and not nan) everywhere")
+    return T
+
+
+def _parameters(values):
+    """Checked parameters and whether all of them are single numbers."""
+    scalar = True
+    out = []
+    for name, value in zip(PARAMETERS, values):
+        if type(value) is float and math.isfinite(value):
+            out.append(value)
+            continue
+        v = _real_input(name, value)
+        if not (math.isfinite(v) if type(v) is float else numpy.isfinite(v).all()):
+            raise ValueError(f"parameter {name} must be finite")
+        scalar = scalar and type(v) is float
+        out.append(v)
+    return out, scalar
+
+
+def _width(eta):
+    eta = _real_input("eta", eta)
+    if type(eta) is not float or not (eta > 0 and math.isfinite(eta)):
+        raise ValueError(f"eta={eta!r} must be one finite number > 0")
+    return eta
+
+
+def _store(out, s, value, width):
+    if width is None:
+        out[s] = value
+    else:
+        for k, v in enumerate(value):
+            out[s, k] = v
+
+
+def _static_call(kern_s, kern_a, par_s, par_a, T, params, width, dtype):
+    """Drive a stage-B kernel over temperatures and parameters (all broadcasting together)."""
+    T = _temperature(T)
+    ps, scalar = _parameters(params)
+    if scalar:
+        P = par_s(*ps)
+        if type(T) is float:
+            value = kern_s(1.0 / T, P)
+            return dtype.type(value).item() if width is None else numpy.array(value, dtype=dtype)
+        if width is None and T.size <= _CHUNK:
+            # The kernels are elementwise: the result has the shape of T already.
+            value = kern_a(1.0 / T, P)
+            if type(value) is numpy.ndarray and value.shape == T.shape and value.dtype == dtype:
+                return value
+            return numpy.array(numpy.broadcast_to(value, T.shape), dtype=dtype)
+        shape = T.shape
+        beta = 1.0 / T.reshape(-1)
+        n = beta.size
+        full = shape if width is None else shape + (width,)
+        out = numpy.empty((n,) + full[len(shape):], dtype=dtype)
+        for i in range(0, n, _CHUNK):
+            s = slice(i, i + _CHUNK)
+            _store(out, s, kern_a(beta[s], P), width)
+        return out.reshape(full)
+    shape = numpy.broadcast_shapes(numpy.shape(T), *(numpy.shape(p) for p in ps))
+    n = math.prod(shape)
+    full = shape if width is None else shape + (width,)
+    beta = 1.0 / numpy.broadcast_to(T, shape).reshape(-1)
+    flat = [p if type(p) is float else numpy.broadcast_to(p, shape).reshape(-1) for p in ps]
+    out = numpy.empty((n,) + full[len(shape):], dtype=dtype)
+    for i in range(0, n, _CHUNK):
+        s = slice(i, i + _CHUNK)
+        P = par_a(*[p if type(p) is float else p[s] for p in flat])
+        _store(out, s, kern_a(beta[s], P), width)
+    return out.reshape(full)
+
+
+def _dynamic_call(kern_s, kern_a, par_s, par_a, grid, name, X, T, params, eta, dtype):
+    """Drive stage B (pole coefficients) and stage W (the grid) over broadcast inputs."""
+    X = _real_input(name, X)
+    T = _temperature(T)
+    ps, scalar = _parameters(params)
+    if scalar and type(T) is float:
+        C = kern_s(1.0 / T, par_s(*ps))
+        if type(X) is float:
+            return dtype.type(grid(X, eta, C)).item()
+        if X.size <= _CHUNK_COMPLEX:
+            value = grid(X, eta, C)
+            if type(value) is numpy.ndarray and value.shape == X.shape and value.dtype == dtype:
+                return value
+            return numpy.array(numpy.broadcast_to(value, X.shape), dtype=dtype)
+        shape = X.shape
+        xs = X.reshape(-1)
+        out = numpy.empty(xs.size, dtype=dtype)
+        for i in range(0, xs.size, _CHUNK_COMPLEX):
+            s = slice(i, i + _CHUNK_COMPLEX)
+            out[s] = grid(xs[s], eta, C)
+        return out.reshape(shape)
+    shape = numpy.broadcast_shapes(numpy.shape(X), numpy.shape(T), *(numpy.shape(p) for p in ps))
+    n = math.prod(shape)
+    xs = numpy.broadcast_to(X, shape).reshape(-1)
+    beta = 1.0 / numpy.broadcast_to(T, shape).reshape(-1)
+    flat = [p if type(p) is float else numpy.broadcast_to(p, shape).reshape(-1) for p in ps]
+    P = par_s(*ps) if scalar else None
+    out = numpy.empty(n, dtype=dtype)
+    for i in range(0, n, _CHUNK_COMPLEX):
+        s = slice(i, i + _CHUNK_COMPLEX)
+        Ps = P if scalar else par_a(*[p if type(p) is float else p[s] for p in flat])
+        out[s] = grid(xs[s], eta, kern_a(beta[s], Ps))
+    return out.reshape(shape)
+
+
+# Boltzmann factor exp(-beta c) of a level c >= 0 above the lowest one.
+def _bexp_s(beta, c):
+    return math.exp(-beta * c)
+
+
+def _bexp_a(beta, c):
+    if type(c) is float:
+        if c == 0.0:
+            return 1.0            # the lowest level: no exponential over the grid
+        x = beta * (-c)
+    else:
+        x = beta * numpy.negative(c)
+    if type(x) is numpy.ndarray:
+        return numpy.exp(x, out=x)
+    return numpy.exp(x)
+
+
+# Thermal pair factor (x_a - x_b)/(beta w) = max(x_a, x_b) phi(beta |w|), w = E_b - E_a.
+def _expdiv_s(xa, xb, beta, w):
+    y = beta * abs(w)
+    lo = xa if w >= 0 else xb
+    return lo if y == 0.0 else lo * (-math.expm1(-y) / y)
+
+
+def _expdiv_a(xa, xb, beta, w):
+    if type(w) is float:
+        lo = xa if w >= 0 else xb
+        if w == 0.0:
+            return lo
+        ny = beta * (-abs(w))
+    else:
+        lo = numpy.where(w >= 0, xa, xb)
+        ny = beta * numpy.negative(numpy.abs(w))
+    if type(ny) is numpy.ndarray:
+        numpy.minimum(ny, -_TINY, out=ny)
+        phi = numpy.expm1(ny)
+        phi /= ny
+        phi *= lo
+        return phi
+    ny = min(float(ny), -_TINY)
+    return lo * (math.expm1(ny) / ny)
+
+
+def _psi_s(y):
+    if y < _SERIES:
+        return -0.5 + y * (1 / 6 - y * (1 / 24 - y * (1 / 120 - y / 720)))
+    return (-math.expm1(-y) - y) / (y * y)
+
+
+def _psiphi_s(y):
+    if y < _SERIES:
+        return 0.5 - y * (1 / 3 - y * (1 / 8 - y * (1 / 30 - y / 144)))
+    return (-math.expm1(-y) - y * math.exp(-y)) / (y * y)
+
+
+# d/du_a of (e^u_a - e^u_b)/(u_a - u_b): -x_a psi(y) if level a is lower, else x_b (psi + phi).
+def _expdiv2_s(xa, xb, beta, w):
+    y = beta * abs(w)
+    return -xa * _psi_s(y) if w >= 0 else xb * _psiphi_s(y)
+
+
+def _expdiv2_a(xa, xb, beta, w):
+    y = numpy.asarray(beta * numpy.abs(w), dtype=float)
+    small = y < _SERIES
+    ys = numpy.where(small, 1.0, y)
+    em1 = -numpy.expm1(-ys)
+    psi = numpy.where(small, -0.5 + y * (1 / 6 - y * (1 / 24 - y * (1 / 120 - y / 720))),
+                      (em1 - ys) / (ys * ys))
+    psiphi = numpy.where(small, 0.5 - y * (1 / 3 - y * (1 / 8 - y * (1 / 30 - y / 144))),
+                         (em1 - ys * numpy.exp(-ys)) / (ys * ys))
+    return numpy.where(numpy.asarray(w) >= 0, -xa * psi, xb * psiphi)
+
+
+# Isolated susceptibility: pairs closer than the grouping tolerance count as one level.
+def _keep_s(w, tol):
+    return 1.0 if abs(w) > tol else 0.0
+
+
+def _keep_a(w, tol):
+    return numpy.abs(w) > tol
+
+
+def _lmin_s(*energies):
+    return min(energies)
+
+
+def _lmin_a(*energies):
+    out = energies[0]
+    for e in energies[1:]:
+        out = numpy.minimum(out, e)
+    return out
+
+
+def _atmin_s(energies, values):
+    return values[min(range(len(energies)), key=energies.__getitem__)]
+
+
+def _atmin_a(energies, values):
+    arrays = numpy.broadcast_arrays(*energies, *values)
+    n = len(energies)
+    index = numpy.argmin(numpy.stack(arrays[:n]), axis=0)
+    return numpy.take_along_axis(numpy.stack(arrays[n:]), index[None], axis=0)[0]
+
+
+def _degtol_s(rtol, *energies):
+    return rtol * max(1.0, max(abs(e) for e in energies))
+
+
+def _degtol_a(rtol, *energies):
+    out = 1.0
+    for e in energies:
+        out = numpy.maximum(out, numpy.abs(e))
+    return rtol * out
+
+
+def _causal_a(t, value):
+    return numpy.where(t >= 0, value, 0.0)
+'''

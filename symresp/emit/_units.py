@@ -1,0 +1,294 @@
+r"""Physical units for numbers from the evaluators (layer: emit).
+
+symresp computes with :math:`\hbar = k_B = 1`: temperature, couplings and frequencies share one
+energy unit. This module converts that unit (kelvin, meV, cm^-1, GHz, THz, joule) and turns a
+spin susceptibility into the molar magnetic susceptibility of magnetochemistry (cgs-emu and
+SI). The constants are the CODATA 2018 recommended values, written out here (scipy is only a
+test dependency; the tests compare these numbers with ``scipy.constants``). Since the 2019 SI
+revision h, k_B, e, c and N_A are exact; mu_B and mu_0 are measured.
+
+Molar susceptibility (see ``docs/units.md``): for a Zeeman term :math:`-g\mu_B B S^z_{\rm tot}`
+the field couples to :math:`S^z_{\rm tot}` with :math:`f = g\mu_B B`, so with
+:math:`\chi = \chi_{S^zS^z}` per molecule in units of 1/energy,
+
+.. math::
+
+    \chi_{\rm mol}^{\rm SI} = \mu_0 N_A g^2\mu_B^2\,\chi\ \ [\mathrm{m^3\,mol^{-1}}], \qquad
+    \chi_{\rm mol}^{\rm cgs} = \chi_{\rm mol}^{\rm SI}/(4\pi\cdot 10^{-6})\ \ [\mathrm{cm^3\,mol^{-1}}],
+
+with :math:`\chi` expressed per joule. For energies in kelvin the cgs prefactor is
+:math:`N_A\mu_B^2/k_B = 0.37515\ \mathrm{cm^3\,K\,mol^{-1}}`.
+
+Imports: math and :mod:`symresp.errors` only.
+"""
+
+from __future__ import annotations
+
+import math
+from numbers import Real
+
+from ..errors import InputError
+
+__all__ = [
+    "PLANCK", "BOLTZMANN", "ELEMENTARY_CHARGE", "SPEED_OF_LIGHT", "AVOGADRO", "BOHR_MAGNETON",
+    "VACUUM_PERMEABILITY", "ENERGY_UNITS", "energy_in_joule", "energy_factor",
+    "convert_energy", "molar_susceptibility", "molar_chi_T", "curie_constant",
+]
+
+#: Planck constant h in J s. Source: CODATA 2018 (exact).
+PLANCK = 6.62607015e-34
+#: Boltzmann constant k_B in J/K. Source: CODATA 2018 (exact).
+BOLTZMANN = 1.380649e-23
+#: Elementary charge e in C. Source: CODATA 2018 (exact).
+ELEMENTARY_CHARGE = 1.602176634e-19
+#: Speed of light in vacuum c in m/s. Source: CODATA 2018 (exact).
+SPEED_OF_LIGHT = 299792458.0
+#: Avogadro constant N_A in 1/mol. Source: CODATA 2018 (exact).
+AVOGADRO = 6.02214076e23
+#: Bohr magneton mu_B in J/T. Source: CODATA 2018 (9.2740100783(28)e-24).
+BOHR_MAGNETON = 9.2740100783e-24
+#: Vacuum magnetic permeability mu_0 in N/A^2. Source: CODATA 2018 (1.25663706212(19)e-6).
+VACUUM_PERMEABILITY = 1.25663706212e-6
+
+#: One unit of each supported energy scale, in joules.
+ENERGY_UNITS: dict[str, float] = {
+    "J": 1.0,
+    "K": BOLTZMANN,                                   # k_B * 1 K
+    "meV": 1e-3 * ELEMENTARY_CHARGE,                  # 1 meV
+    "cm^-1": PLANCK * SPEED_OF_LIGHT * 100.0,         # h c * (1 cm^-1)
+    "GHz": PLANCK * 1e9,                              # h * 1 GHz
+    "THz": PLANCK * 1e12,                             # h * 1 THz
+}
+_ALIASES = {"cm-1": "cm^-1", "1/cm": "cm^-1", "kelvin": "K", "joule": "J"}
+#: SI molar susceptibility per cgs-emu one: chi_SI [m^3/mol] = 4 pi 1e-6 chi_cgs [cm^3/mol].
+_SI_PER_CGS = 4e-6 * math.pi
+_SYSTEMS = ("cgs", "SI")
+
+
+def _unit(name: str, unit: object) -> str:
+    if not isinstance(unit, str) or _ALIASES.get(unit, unit) not in ENERGY_UNITS:
+        known = ", ".join(ENERGY_UNITS)
+        raise InputError(f"{name}={unit!r} is not an energy unit (use one of {known})")
+    return _ALIASES.get(unit, unit)
+
+
+def _positive(name: str, value: object) -> float:
+    if isinstance(value, bool) or not isinstance(value, Real) or not (
+            math.isfinite(float(value)) and float(value) > 0):
+        raise InputError(f"{name}={value!r} must be a finite number > 0")
+    return float(value)
+
+
+def _system(system: object) -> str:
+    if system not in _SYSTEMS:
+        raise InputError(f"system={system!r} must be 'cgs' (cm^3/mol) or 'SI' (m^3/mol)")
+    return system  # type: ignore[return-value]
+
+
+def energy_in_joule(unit: str) -> float:
+    """Size of one ``unit`` of energy in joules (k_B T for K, h nu for GHz/THz, h c nu~ for cm^-1).
+
+    Parameters
+    ----------
+    unit : {"J", "K", "meV", "cm^-1", "GHz", "THz"}
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    InputError
+        For an unknown unit.
+
+    Examples
+    --------
+    >>> from symresp.emit import energy_in_joule
+    >>> energy_in_joule("K")
+    1.380649e-23
+
+    See Also
+    --------
+    energy_factor, convert_energy
+    """
+    return ENERGY_UNITS[_unit("unit", unit)]
+
+
+def energy_factor(from_unit: str, to_unit: str) -> float:
+    """Multiply an energy in ``from_unit`` by this number to express it in ``to_unit``.
+
+    Parameters
+    ----------
+    from_unit, to_unit : {"J", "K", "meV", "cm^-1", "GHz", "THz"}
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    InputError
+        For an unknown unit.
+
+    Examples
+    --------
+    >>> from symresp.emit import energy_factor
+    >>> round(energy_factor("meV", "K"), 4)       # 1 meV is about 11.6 K (common practice)
+    11.6045
+
+    See Also
+    --------
+    convert_energy
+    """
+    return ENERGY_UNITS[_unit("from_unit", from_unit)] / ENERGY_UNITS[_unit("to_unit", to_unit)]
+
+
+def convert_energy(value, from_unit: str, to_unit: str):
+    """Express ``value`` (a number or a numpy array) given in ``from_unit`` in ``to_unit``.
+
+    Parameters
+    ----------
+    value : float or array_like
+    from_unit, to_unit : {"J", "K", "meV", "cm^-1", "GHz", "THz"}
+
+    Returns
+    -------
+    float or ndarray
+
+    Raises
+    ------
+    InputError
+        For an unknown unit.
+
+    Examples
+    --------
+    >>> from symresp.emit import convert_energy
+    >>> round(convert_energy(1.0, "cm^-1", "K"), 5)
+    1.43878
+
+    See Also
+    --------
+    energy_factor
+    """
+    return value * energy_factor(from_unit, to_unit)
+
+
+def molar_susceptibility(chi, *, g: float, energy_unit: str = "K", system: str = "cgs"):
+    r"""Molar magnetic susceptibility from the spin susceptibility :math:`\chi_{S^zS^z}`.
+
+    .. math:: \chi_{\rm mol} = N_A g^2 \mu_B^2\,\chi / E_u \times
+              \begin{cases} 10^{-1}\ \mathrm{cm^3\,mol^{-1}} & \text{cgs-emu}\\
+              \mu_0\ \mathrm{m^3\,mol^{-1}} & \text{SI}\end{cases}
+
+    with :math:`E_u` one ``energy_unit`` in joules (SI numbers for :math:`N_A, \mu_B`; the
+    factor 1e-1 converts :math:`\mathrm{J\,T^{-2}}` per mole to emu: :math:`\mu_B` in erg/G
+    is 1e3 times its J/T value, energies in erg are 1e7 times joules).
+
+    Parameters
+    ----------
+    chi : float or array_like
+        Isothermal susceptibility per molecule of A = B = total S^z, in 1/``energy_unit``
+        (the output of the evaluators with temperatures and couplings in that unit).
+    g : float
+        g factor (> 0).
+    energy_unit : str
+        Unit of the model energies (default kelvin).
+    system : {"cgs", "SI"}
+        cm^3 mol^-1 (cgs-emu) or m^3 mol^-1 (SI).
+
+    Returns
+    -------
+    float or ndarray
+
+    Raises
+    ------
+    InputError
+        On a bad ``g``, ``energy_unit`` or ``system``.
+
+    Examples
+    --------
+    Curie law of a spin 1/2, :math:`\chi = 1/(4T)`: :math:`\chi_{\rm mol} T = 0.375` for g = 2.
+
+    >>> from symresp.emit import molar_susceptibility
+    >>> round(molar_susceptibility(1 / (4 * 300.0), g=2.0) * 300.0, 4)
+    0.3751
+
+    See Also
+    --------
+    molar_chi_T, curie_constant
+    """
+    g = _positive("g", g)
+    e_unit = energy_in_joule(energy_unit)
+    factor = AVOGADRO * g * g * BOHR_MAGNETON**2 / e_unit
+    factor *= 1e-1 if _system(system) == "cgs" else VACUUM_PERMEABILITY
+    return chi * factor
+
+
+def molar_chi_T(chi, T, *, g: float, energy_unit: str = "K", system: str = "cgs"):
+    r""":math:`\chi_{\rm mol} T` with T in kelvin (cm^3 K mol^-1 or m^3 K mol^-1).
+
+    Parameters
+    ----------
+    chi : float or array_like
+        Spin susceptibility per molecule in 1/``energy_unit``.
+    T : float or array_like
+        Temperatures in ``energy_unit`` (the values the evaluator was called with).
+    g : float
+    energy_unit : str
+    system : {"cgs", "SI"}
+
+    Returns
+    -------
+    float or ndarray
+
+    Raises
+    ------
+    InputError
+        On a bad ``g``, ``energy_unit`` or ``system``.
+
+    Examples
+    --------
+    >>> from symresp.emit import molar_chi_T
+    >>> round(molar_chi_T(1 / (4 * 2.0), 2.0, g=2.0), 4)
+    0.3751
+
+    See Also
+    --------
+    molar_susceptibility
+    """
+    kelvin = energy_factor(energy_unit, "K")
+    return molar_susceptibility(chi, g=g, energy_unit=energy_unit, system=system) * (T * kelvin)
+
+
+def curie_constant(spin: float, *, g: float, system: str = "cgs") -> float:
+    r"""Curie constant :math:`C = N_A g^2\mu_B^2 S(S+1)/(3k_B)` of independent spins S.
+
+    Parameters
+    ----------
+    spin : float
+        Spin quantum number S (> 0).
+    g : float
+    system : {"cgs", "SI"}
+        cm^3 K mol^-1 or m^3 K mol^-1.
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    InputError
+        On a bad ``spin``, ``g`` or ``system``.
+
+    Examples
+    --------
+    >>> from symresp.emit import curie_constant
+    >>> round(curie_constant(0.5, g=2.0), 4)        # about 0.375 (common practice)
+    0.3751
+
+    See Also
+    --------
+    molar_susceptibility
+    """
+    S = _positive("spin", spin)
+    return molar_susceptibility(S * (S + 1) / 3.0, g=g, energy_unit="K", system=system)
