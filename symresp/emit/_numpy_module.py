@@ -75,8 +75,7 @@ def _array_only(prog: Program) -> list[str]:
 
 
 # ------------------------------------------------------------------------------ docstrings
-def _header(d: Derivation, plan: Plan, fp: str, version: str) -> str:
-    name = d.system.name
+def _header(d: Derivation, plan: Plan, fp: str, version: str, name: str) -> str:
     pnames = ", ".join(plan.names) or "(none)"
     renamed = [f"{o.name} -> {s.name}" for o, s in zip(plan.original, plan.parameters)
                if o.name != s.name]
@@ -230,11 +229,10 @@ def _doc(key: str, plan: Plan) -> str:
 
 
 # ------------------------------------------------------------------------------ public glue
-def _glue(plan: Plan, static_dtype: str, wave_dtype: str, has_time: bool) -> list[str]:
+def _glue(plan: Plan, has_time: bool) -> list[str]:
     """The public functions: explicit signatures (curve_fit counts the parameters) calling the
     drivers of the runtime text with the printed kernels."""
     sig = "".join(f", {n}" for n in plan.names)
-    args = ", ".join(plan.names)
     scalars = "".join(f"type({n}) is float and math.isfinite({n}) and " for n in plan.names)
     tup = "(" + "".join(f"{n}, " for n in plan.names) + ")"
     n = len(plan.names)
@@ -249,7 +247,7 @@ def _glue(plan: Plan, static_dtype: str, wave_dtype: str, has_time: bool) -> lis
             f"    if {scalars}type(T) is numpy.ndarray and T.dtype == _F64 and 0 < T.size <= _CHUNK:",
             "        if not T.min() > 0:",
             "            raise ValueError('T must be > 0 (and not nan) everywhere')",
-            f"        value = _{kind}_a(1.0 / T, _params_{kind}_s({args}))",
+            f"        value = _{kind}_a(1.0 / T, _stage_p_s(_params_{kind}_s, {tup}))",
             "        if type(value) is numpy.ndarray and value.dtype == _STATIC and value.shape == T.shape:",
             "            return value",
             f"    return _static_call(_{kind}_s, _{kind}_a, _params_{kind}_s, _params_{kind}_a, "
@@ -287,8 +285,8 @@ def _glue(plan: Plan, static_dtype: str, wave_dtype: str, has_time: bool) -> lis
     fn(f"def energies({', '.join(plan.names)}):", "energies",
        [f"    ps, scalar = _parameters({tup})",
         "    if scalar:",
-        "        return numpy.array(_energies_s(*ps))",
-        "    values = numpy.broadcast_arrays(*_energies_a(*ps), *ps)[:len(DEGENERACIES)]",
+        "        return numpy.array(_stage_p_s(_energies_s, ps))",
+        "    values = numpy.broadcast_arrays(*_stage_p_a(_energies_a, ps), *ps)[:len(DEGENERACIES)]",
         "    return numpy.stack(values, axis=-1)"])
     return L
 
@@ -297,7 +295,7 @@ def _glue(plan: Plan, static_dtype: str, wave_dtype: str, has_time: bool) -> lis
 def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> str:
     r"""Source of a standalone numpy module evaluating ``derivation`` at numbers.
 
-    The module imports numpy, ``math`` and nothing else, and defines (independent variable
+    The module imports numpy, ``math`` and ``cmath`` only, and defines (independent variable
     first, then the model parameters in sorted-name order, all broadcasting together):
     ``chi_isothermal(T, *p)``, ``chi_isolated(T, *p)``, ``chi_static(T, *p, kind=)``,
     ``jacobian_static(T, *p, kind=)``, ``chi_omega(omega, T, *p, eta=)``,
@@ -366,10 +364,11 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     has_time = plan.prescription == 1
 
     title = name if name is not None else derivation.system.name
-    src: list[str] = ['"""' + _header(derivation, plan, fp, version).replace(
-        "Linear-response evaluators for model " + repr(derivation.system.name),
-        "Linear-response evaluators for model " + repr(title), 1) + '\n"""', ""]
-    src += ["import math", "", "import numpy", ""]
+    doc = _header(derivation, plan, fp, version, title)
+    # A docstring literal; names that would end or escape it fall back to repr().
+    literal = '"""' + doc + '\n"""' if '"""' not in doc and "\\" not in doc else repr(doc)
+    src: list[str] = [literal, ""]
+    src += ["import cmath", "import math", "", "import numpy", ""]
     public_names = ["chi_isothermal", "chi_isolated", "chi_static", "jacobian_static",
                     "chi_omega", "chi_spectral", "chi_time", "energies"]
     src.append("__all__ = [" + ", ".join(repr(n) for n in public_names) + "]")
@@ -405,7 +404,7 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     src += _array_only(spectral_program(plan, "gaussian")) + ["", ""]
     src += _array_only(time_program(plan)) + ["", ""]
     src += ["# " + "-" * 90, "# Public functions.", "# " + "-" * 90, "", ""]
-    src += _glue(plan, static_dtype, wave_dtype, has_time)
+    src += _glue(plan, has_time)
     while src and src[-1] == "":
         src.pop()
     return "\n".join(src) + "\n"

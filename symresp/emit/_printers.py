@@ -111,21 +111,34 @@ class _ProgramPrinting:
     def _print_ImaginaryUnit(self, expr: sp.Expr) -> str:
         return "1j"
 
+    def _print_Pow(self, expr: sp.Pow, rational: bool = False) -> str:
+        # Square roots in level energies are roots of discriminants of Hermitian blocks, >= 0
+        # exactly; rounding can push an expanded one (a^2 - 2ac + c^2 + 4b^2 at a = c, b = 0)
+        # a few ulps below zero, where math.sqrt raises and numpy.sqrt returns nan.
+        if expr.exp == sp.Rational(1, 2) and not expr.base.has(sp.I):
+            return self._helper("sqrt", expr.base)
+        if expr.exp == -sp.Rational(1, 2) and not expr.base.has(sp.I):
+            return f"1/{self._helper('sqrt', expr.base)}"
+        return self._print_Pow_default(expr, rational=rational)
+
 
 class ArrayPrinter(_ProgramPrinting, NumPyPrinter):
     """numpy printer for the array path (functions broadcast over their arguments)."""
 
     _suffix = "_a"
 
-    def _print_Pow(self, expr: sp.Pow, rational: bool = False) -> str:
+    def _print_Pow_default(self, expr: sp.Pow, rational: bool = False) -> str:
         # The program's values are floats, never integer arrays, so integer exponents may stay
         # integers: ``1/x`` and ``x**2`` take numpy's fast paths, ``x**(-1.0)`` does not.
         if expr.exp.is_Integer:
             return PythonCodePrinter._print_Pow(self, expr, rational=rational)
-        return super()._print_Pow(expr, rational=rational)
+        return NumPyPrinter._print_Pow(self, expr, rational=rational)
 
 
 class ScalarPrinter(_ProgramPrinting, PythonCodePrinter):
     """``math`` printer for the all-scalar fast path."""
 
     _suffix = "_s"
+
+    def _print_Pow_default(self, expr: sp.Pow, rational: bool = False) -> str:
+        return PythonCodePrinter._print_Pow(self, expr, rational=rational)

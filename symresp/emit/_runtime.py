@@ -81,6 +81,43 @@ def _width(eta):
     return eta
 
 
+#: Relative size of the step off a removable singularity of the weights (see _stage_p_s).
+_NUDGE = 1e-50
+#: The same for Jacobians: their terms grow like 1/step there and cancel, so a tiny step would
+#: leave rounding noise; 1e-7 leaves about 1e-9 of noise and 1e-7 of truncation.
+_NUDGE_JACOBIAN = 1e-7
+
+
+def _nudge(ps, size):
+    # Distinct steps per parameter, so that no symmetric combination stays singular.
+    return [p + size * (1.0 + 0.618 * k) * (1.0 + abs(p)) for k, p in enumerate(ps)]
+
+
+def _stage_p_s(par, ps, size=_NUDGE):
+    """Stage P at scalar parameters.
+
+    Weights of a symbolic block can hold removable singularities where its eigenvectors are
+    not defined, e.g. h / sqrt(E^2 + h^2) at E = h = 0. The response itself is analytic in
+    the parameters (T > 0), so its value there is the limit: evaluate 1e-50 away instead.
+    """
+    try:
+        P = par(*ps)
+        if cmath.isfinite(sum(P)):
+            return P
+    except (ZeroDivisionError, ValueError, OverflowError):
+        pass
+    return par(*_nudge(ps, size))
+
+
+def _stage_p_a(par, ps, size=_NUDGE):
+    """Stage P at array parameters (see _stage_p_s)."""
+    with numpy.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        P = par(*ps)
+        if numpy.isfinite(sum(P)).all():
+            return P
+    return par(*_nudge(ps, size))
+
+
 def _store(out, s, value, width):
     if width is None:
         out[s] = value
@@ -93,8 +130,9 @@ def _static_call(kern_s, kern_a, par_s, par_a, T, params, width, dtype):
     """Drive a stage-B kernel over temperatures and parameters (all broadcasting together)."""
     T = _temperature(T)
     ps, scalar = _parameters(params)
+    size = _NUDGE if width is None else _NUDGE_JACOBIAN
     if scalar:
-        P = par_s(*ps)
+        P = _stage_p_s(par_s, ps, size)
         if type(T) is float:
             value = kern_s(1.0 / T, P)
             return dtype.type(value).item() if width is None else numpy.array(value, dtype=dtype)
@@ -121,7 +159,7 @@ def _static_call(kern_s, kern_a, par_s, par_a, T, params, width, dtype):
     out = numpy.empty((n,) + full[len(shape):], dtype=dtype)
     for i in range(0, n, _CHUNK):
         s = slice(i, i + _CHUNK)
-        P = par_a(*[p if type(p) is float else p[s] for p in flat])
+        P = _stage_p_a(par_a, [p if type(p) is float else p[s] for p in flat], size)
         _store(out, s, kern_a(beta[s], P), width)
     return out.reshape(full)
 
@@ -132,7 +170,7 @@ def _dynamic_call(kern_s, kern_a, par_s, par_a, grid, name, X, T, params, eta, d
     T = _temperature(T)
     ps, scalar = _parameters(params)
     if scalar and type(T) is float:
-        C = kern_s(1.0 / T, par_s(*ps))
+        C = kern_s(1.0 / T, _stage_p_s(par_s, ps))
         if type(X) is float:
             return dtype.type(grid(X, eta, C)).item()
         if X.size <= _CHUNK_COMPLEX:
@@ -152,11 +190,11 @@ def _dynamic_call(kern_s, kern_a, par_s, par_a, grid, name, X, T, params, eta, d
     xs = numpy.broadcast_to(X, shape).reshape(-1)
     beta = 1.0 / numpy.broadcast_to(T, shape).reshape(-1)
     flat = [p if type(p) is float else numpy.broadcast_to(p, shape).reshape(-1) for p in ps]
-    P = par_s(*ps) if scalar else None
+    P = _stage_p_s(par_s, ps) if scalar else None
     out = numpy.empty(n, dtype=dtype)
     for i in range(0, n, _CHUNK_COMPLEX):
         s = slice(i, i + _CHUNK_COMPLEX)
-        Ps = P if scalar else par_a(*[p if type(p) is float else p[s] for p in flat])
+        Ps = P if scalar else _stage_p_a(par_a, [p if type(p) is float else p[s] for p in flat])
         out[s] = grid(xs[s], eta, kern_a(beta[s], Ps))
     return out.reshape(shape)
 
@@ -274,6 +312,15 @@ def _degtol_a(rtol, *energies):
     for e in energies:
         out = numpy.maximum(out, numpy.abs(e))
     return rtol * out
+
+
+# Square root of a radicand that is >= 0 exactly (a block discriminant): clamp rounding noise.
+def _sqrt_s(x):
+    return math.sqrt(x) if x > 0.0 else 0.0
+
+
+def _sqrt_a(x):
+    return numpy.sqrt(numpy.maximum(x, 0.0))
 
 
 def _causal_a(t, value):

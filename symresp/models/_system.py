@@ -46,7 +46,7 @@ class Budget:
     """
 
     seconds: float = 600.0
-    max_symbolic_block: int = 8
+    max_symbolic_block: int = 12
     max_block: int = 400
 
     def __post_init__(self) -> None:

@@ -36,11 +36,14 @@ from typing import Literal
 
 import flint
 import sympy as sp
+from sympy.polys.constructor import construct_domain
+from sympy.polys.matrices import DomainMatrix
 
 from ..algebra import SparseForm
 from ..errors import BudgetExceeded, ClosedFormError
 from ..models import Clock, System
 from ._blocks import Block, BlockStructure, decompose
+from ._quadratic import Radical, Surd, bilinear
 
 __all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean"]
 
@@ -146,6 +149,39 @@ class BlockSolution:
     reducers: tuple                   # scaled: per factor, D x deg(f) fmpq_mat of alpha_k mod f
     alphas: tuple                     # symbolic: per factor, per root, tuple of alpha_k
     gauge: tuple | None = None        # diagonal rescaling D (block matrix is D^-1 H D), or None
+    domain: object = None             # symbolic: the sympy domain K of the block entries
+    kalphas: tuple = ()               # symbolic: per factor, per root, tuple of Surd (None if implicit)
+
+    def domain_alpha(self, factor: int, root: int) -> tuple:
+        """alpha_k(lambda) as Surds over :meth:`field` (explicit roots only)."""
+        if self.kind == "symbolic":
+            return self.kalphas[factor][root]
+        f = self.factors[factor]
+        K = sp.QQ
+        red = self.reducers[factor]
+        if f.degree == 1:
+            return tuple(Surd.of(K, K.convert(_q(red[k, 0]))) for k in range(self.degree))
+        a, b, c = (int(v) for v in f.coeffs)
+        rad = Radical(K, K.convert(b * b - 4 * a * c), sp.sqrt(sp.Integer(b * b - 4 * a * c)))
+        sign = -1 if root == 0 else 1
+        lam = Surd(K, K.convert(sp.Rational(-b, 2 * a)), K.convert(sp.Rational(sign, 2 * a)), rad)
+        out = []
+        for k in range(self.degree):
+            r0, r1 = K.convert(_q(red[k, 0])), K.convert(_q(red[k, 1]))
+            out.append(Surd.of(K, r0, rad) + lam.scale(r1))
+        return tuple(out)
+
+    def field(self):
+        """The domain over which :meth:`domain_alpha` and :meth:`domain_power` are exact."""
+        return self.domain if self.kind == "symbolic" else sp.QQ
+
+    def domain_power(self, k: int) -> DomainMatrix:
+        """M^k as a DomainMatrix over :meth:`field`."""
+        P = self.powers[k]
+        if self.kind == "symbolic":
+            return P
+        n = P.nrows()
+        return DomainMatrix([[sp.QQ.convert(_q(P[i, j])) for j in range(n)] for i in range(n)], (n, n), sp.QQ)
 
     def alpha(self, factor: int, root: int) -> tuple[sp.Expr, ...]:
         """:math:`\\alpha_k(\\lambda)` for k < D as sympy expressions."""
@@ -164,7 +200,7 @@ class BlockSolution:
         """M^k as a sympy Matrix."""
         P = self.powers[k]
         if self.kind == "symbolic":
-            return P
+            return P.to_Matrix()
         n = P.nrows()
         return sp.Matrix(n, n, lambda i, j: _q(P[i, j]))
 
@@ -239,11 +275,12 @@ class Spectrum:
                         coeff = [sum((_q(red[k, p]) * t[k] for k in range(s.degree)), sp.Integer(0))
                                  for p in range(f.degree)]
                         val = _eval_root_poly(coeff, f.roots[ra])
-                    else:
+                    elif f.implicit:
                         al = s.alpha(fa, ra)
-                        val = sum((al[k] * _trace_sym(s.powers[k], a_blk) for k in range(s.degree)),
-                                  sp.Integer(0))
-                        val = sp.expand(val) if f.implicit else clean(val)
+                        val = sp.expand(sum((al[k] * _trace_sym(s.sympy_power(k), a_blk)
+                                             for k in range(s.degree)), sp.Integer(0)))
+                    else:
+                        val = _domain_expectation(s, fa, ra, a_blk)
                     if val != 0:
                         out[self._part_index(bi, fa, ra)] = val
         return out
@@ -262,6 +299,80 @@ class Spectrum:
 
 # id-keyed cache of part indices; entries hold a reference to their Spectrum, so ids never clash.
 _INDEX_CACHE: dict[int, tuple[Spectrum, dict]] = {}
+
+
+def _unified_domain(K, entries: list[sp.Expr]):
+    """The smallest domain holding K and the given sympy entries (EX as the last resort)."""
+    if not entries:
+        return K
+    try:
+        K2, _ = construct_domain(entries, field=True)
+    except (sp.polys.polyerrors.CoercionFailed, sp.polys.polyerrors.OptionError, NotImplementedError):
+        K2 = sp.EX
+    try:
+        return K.unify(K2)
+    except sp.polys.polyerrors.UnificationFailed:
+        return sp.EX
+
+
+def _dtrace(K, M: DomainMatrix):
+    """Trace of a square DomainMatrix over K."""
+    out = K.zero
+    for v in M.diagonal():
+        out += v
+    return out
+
+
+def _to_domain_matrix(blk: dict, shape: tuple[int, int], K) -> DomainMatrix:
+    rows = [[K.zero] * shape[1] for _ in range(shape[0])]
+    for (i, j), v in blk.items():
+        rows[i][j] = K.from_sympy(v)
+    return DomainMatrix(rows, shape, K)
+
+
+def _domain_expectation(s: BlockSolution, fa: int, ra: int, a_blk: dict) -> sp.Expr:
+    K = _unified_domain(s.field(), list(a_blk.values()))
+    n = s.block.size
+    A = _to_domain_matrix(a_blk, (n, n), K)
+    al = [x.convert(K) for x in s.domain_alpha(fa, ra)]
+    pairs = []
+    for k in range(s.degree):
+        t = _dtrace(K, s.domain_power(k).convert_to(K) * A)
+        pairs.append((al[k], Surd.of(K, t)))
+    return bilinear(K, pairs)
+
+
+def _domain_pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
+                         ) -> dict[tuple[int, int, int, int], sp.Expr]:
+    """Weights over a common domain K: T_kl = Tr(M_i^k A M_j^l B), W = alpha_a^T T alpha_b."""
+    ni, nj = si.block.size, sj.block.size
+    K = _unified_domain(si.field(), list(a_blk.values()) + list(b_blk.values()))
+    try:
+        K = K.unify(sj.field())
+    except sp.polys.polyerrors.UnificationFailed:
+        K = sp.EX
+    A = _to_domain_matrix(a_blk, (ni, nj), K)
+    B = _to_domain_matrix(b_blk, (nj, ni), K)
+    X = [si.domain_power(k).convert_to(K) * A for k in range(si.degree)]
+    Y = [sj.domain_power(l).convert_to(K) * B for l in range(sj.degree)]
+    T = [[_dtrace(K, X[k] * Y[l]) for l in range(sj.degree)] for k in range(si.degree)]
+    out: dict[tuple[int, int, int, int], sp.Expr] = {}
+    for fa, fA in enumerate(si.factors):
+        for ra in range(fA.degree):
+            al = [x.convert(K) for x in si.domain_alpha(fa, ra)]
+            u = []
+            for l in range(sj.degree):
+                acc = Surd.of(K, K.zero, al[0].radical)
+                for k in range(si.degree):
+                    acc = acc + al[k].scale(T[k][l])
+                u.append(acc)
+            for fb, fB in enumerate(sj.factors):
+                for rb in range(fB.degree):
+                    be = [x.convert(K) for x in sj.domain_alpha(fb, rb)]
+                    w = bilinear(K, list(zip(u, be)))
+                    if w != 0:
+                        out[(fa, ra, fb, rb)] = w
+    return out
 
 
 def _trace_q(P: flint.fmpq_mat, a_blk: dict, n: int) -> sp.Rational:
@@ -336,7 +447,9 @@ def _pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
                         if w != 0:
                             out[(fa, ra, fb, rb)] = w
         return out
-    # General route: sympy matrices and explicit alpha coefficients.
+    if not any(f.implicit for f in si.factors + sj.factors):
+        return _domain_pair_weights(si, sj, a_blk, b_blk)
+    # Implicit roots in a general block: sympy matrices and explicit alpha coefficients.
     A = sp.SparseMatrix(ni, nj, a_blk)
     B = sp.SparseMatrix(nj, ni, b_blk)
     X = [si.sympy_power(k) * A for k in range(si.degree)]
@@ -489,10 +602,13 @@ def _solve_scaled(block: Block, shift, scale, Mq: dict, clock: Clock | None) -> 
                          tuple(reducers), ())
 
 
-def _quadratic_roots(a, b, c) -> tuple[sp.Expr, sp.Expr]:
-    disc = sp.factor(sp.expand(b * b - 4 * a * c))
-    r = sp.sqrt(disc)
-    return (clean((-b - r) / (2 * a)), clean((-b + r) / (2 * a)))
+def _poly_mul(K, p: list, q: list) -> list:
+    """Product of coefficient lists (highest power first) over K."""
+    out = [K.zero] * (len(p) + len(q) - 1)
+    for i, a in enumerate(p):
+        for j, b in enumerate(q):
+            out[i + j] += a * b
+    return out
 
 
 def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None,
@@ -505,79 +621,97 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
             f"symbolic characteristic polynomial; give numeric values to some parameters, add a "
             f"sector, or raise Budget(max_symbolic_block=...)"
         )
-    Mb = sp.Matrix(n, n, lambda i, j: Hb.get((i, j), sp.Integer(0)))
-    cp = Mb.charpoly(_x).as_expr()
+    K = _unified_domain(sp.QQ, list(Hb.values()))
+    M = _to_domain_matrix(Hb, (n, n), K)
+    cp = M.charpoly()
     if clock:
         clock.check("characteristic polynomial", where)
-    content, flist = sp.factor_list(sp.expand(cp), _x, *params) if params else sp.factor_list(cp, _x)
+    cp_expr = sp.expand(sum((K.to_sympy(c) * _x ** (n - i) for i, c in enumerate(cp)), sp.Integer(0)))
+    content, flist = sp.factor_list(cp_expr, _x, *params) if params else sp.factor_list(cp_expr, _x)
     # factor_list may leave a monomial factor x**k inside the returned content.
     flist = list(flist)
     for atom in sp.Mul.make_args(content):
         base, e = atom.as_base_exp()
         if base.has(_x):
             flist.append((base, int(e)))
-    factors = []
-    mpoly = sp.Integer(1)
+    factors: list[Factor] = []
+    kroots: list[tuple[Surd, ...] | None] = []
+    mcoeffs = [K.one]
     for f, mult in flist:
         if not f.has(_x):
             continue
         P = sp.Poly(f, _x)
         deg = P.degree()
         cs = P.all_coeffs()
-        if deg == 1:
-            roots = (clean(-cs[1] / cs[0]),)
-        elif deg == 2:
-            roots = _quadratic_roots(*cs)
-        elif all(c.is_Rational for c in cs):
-            # Numeric factor of a complex-Hermitian block: exact real roots, semi-closed form.
-            roots = tuple(sp.CRootOf(P, k) for k in range(deg))
-            factors.append(Factor(tuple(cs), int(mult), roots, True))
-            mpoly *= f
-            continue
-        else:
+        if deg >= 3 and not all(c.is_Rational for c in cs):
             raise ClosedFormError(
                 f"{where}: the characteristic polynomial has an irreducible factor of degree {deg} "
                 f"in the parameters ({sp.sstr(f.subs(_x, sp.Symbol('E')))}); its roots have no closed "
                 f"form. Give numeric values to all but one parameter of this block, or use the "
                 f"numeric reference"
             )
-        factors.append(Factor(tuple(cs), int(mult), roots, False))
-        mpoly *= f
+        kc = [K.from_sympy(c) for c in cs]
+        mcoeffs = _poly_mul(K, mcoeffs, kc)
+        if deg == 1:
+            lam = Surd.of(K, -kc[1] / kc[0])
+            kroots.append((lam,))
+            factors.append(Factor(tuple(cs), int(mult), (lam.to_sympy(),), False))
+        elif deg == 2:
+            a, b, c = kc
+            Dk = b * b - 4 * a * c
+            rad = Radical(K, Dk, sp.sqrt(sp.factor(K.to_sympy(Dk))))
+            lams = tuple(Surd(K, -b / (2 * a), K.convert(sg) / (2 * a), rad) for sg in (-1, 1))
+            kroots.append(lams)
+            factors.append(Factor(tuple(cs), int(mult), tuple(lm.to_sympy() for lm in lams), False))
+        else:
+            # Numeric factor of a complex-Hermitian block: exact real roots, semi-closed form.
+            kroots.append(None)
+            factors.append(Factor(tuple(cs), int(mult), tuple(sp.CRootOf(P, k) for k in range(deg)), True))
         if clock:
             clock.check("roots", where)
-    mP = sp.Poly(sp.expand(mpoly), _x)
-    mP = mP.monic() if mP.LC() != 1 else mP
-    D = mP.degree()
-    mc = list(reversed(mP.all_coeffs()))  # low -> high
-    mprime = mP.diff(_x)
-    alphas = []
-    for f in factors:
-        per_root = []
-        if f.implicit:
+    lead = mcoeffs[0]
+    mcoeffs = [c / lead for c in mcoeffs]
+    D = len(mcoeffs) - 1
+    mc = list(reversed(mcoeffs))  # low -> high
+    dmc = [mc[j] * K.convert(j) for j in range(1, D + 1)]  # m'(x), low -> high
+    kalphas, alphas = [], []
+    for f, lams in zip(factors, kroots):
+        if lams is None:
             fP = sp.Poly(f.coeffs, _x, domain="QQ")
-            mQ = sp.Poly(mP.all_coeffs(), _x, domain="QQ")
+            mQ = sp.Poly([K.to_sympy(c) for c in mcoeffs], _x, domain="QQ")
             inv = mQ.diff(_x).rem(fP).invert(fP)
-            red = [(sp.Poly(mc[k + 1:][::-1], _x, domain="QQ") * inv).rem(fP) for k in range(D)]
-            for lam in f.roots:
-                per_root.append(tuple(sp.expand(r.as_expr().subs(_x, lam)) for r in red))
-            alphas.append(tuple(per_root))
+            red = [(sp.Poly([K.to_sympy(c) for c in mc[k + 1:]][::-1], _x, domain="QQ") * inv).rem(fP)
+                   for k in range(D)]
+            alphas.append(tuple(tuple(sp.expand(r.as_expr().subs(_x, lam)) for r in red) for lam in f.roots))
+            kalphas.append(None)
             continue
-        for lam in f.roots:
-            den = clean(mprime.as_expr().subs(_x, lam))
+        per_root, per_root_sym = [], []
+        for lam in lams:
+            pw = [Surd.of(K, K.one, lam.radical)]
+            for _ in range(D):
+                pw.append(pw[-1] * lam)
+            mprime = Surd.of(K, K.zero, lam.radical)
+            for j, c in enumerate(dmc):
+                mprime = mprime + pw[j].scale(c)
+            inv = mprime.inverse()
             al = []
             for k in range(D):
-                hk = sum((mc[j] * lam ** (j - k - 1) for j in range(k + 1, D + 1)), sp.Integer(0))
-                al.append(clean(hk / den))
+                hk = Surd.of(K, K.zero, lam.radical)
+                for j in range(k + 1, D + 1):
+                    hk = hk + pw[j - k - 1].scale(mc[j])
+                al.append(hk * inv)
             per_root.append(tuple(al))
-        alphas.append(tuple(per_root))
-    powers = [sp.eye(n)]
+            per_root_sym.append(tuple(x.to_sympy() for x in al))
+        kalphas.append(tuple(per_root))
+        alphas.append(tuple(per_root_sym))
+    powers = [DomainMatrix.eye(n, K)]
     for _ in range(1, D):
-        powers.append((powers[-1] * Mb).applyfunc(sp.expand))
+        powers.append(powers[-1] * M)
     return BlockSolution(block, "symbolic", sp.Integer(0), sp.Integer(1), tuple(factors), D,
-                         tuple(powers), (), tuple(alphas))
+                         tuple(powers), (), tuple(alphas), domain=K, kalphas=tuple(kalphas))
 
 
-def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int = 8,
+def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int = 12,
           max_block: int = 400) -> Spectrum:
     """Exact spectrum of ``system`` (cached on the system).
 

@@ -24,6 +24,7 @@ J = sp.Symbol("J", real=True)
 h = sp.Symbol("h", real=True)
 D = sp.Symbol("D", real=True)
 Delta = sp.Symbol("Delta", positive=True)
+E_r = sp.Symbol("E_r", real=True)          # rhombic zero-field splitting
 
 
 @dataclass(frozen=True)
@@ -77,6 +78,18 @@ def _spin1_matrices(measure: str, *, D: float, h: float):
     return D * sz @ sz + h * sz, A, A
 
 
+def _rhombic_symbolic():
+    # The {+1, -1} block mixes with angle atan(E_r / h): its weights hold h / sqrt(E_r^2 + h^2),
+    # a removable singularity at E_r = h = 0.
+    s = sr.spin("s", 1)
+    return sr.Model(D * s.z**2 + E_r * (s.x**2 - s.y**2) + h * s.z, name="rhombic ion").response(s.z)
+
+
+def _rhombic_matrices(*, D: float, E_r: float, h: float):
+    sx, sy, sz = spin_matrices(1)
+    return D * sz @ sz + E_r * (sx @ sx - sy @ sy) + h * sz, sz, sz
+
+
 def _two_level_symbolic():
     q = sr.spin("q", HALF)
     return sr.Model(Delta * q.z, name="two-level").response(2 * q.x)
@@ -123,6 +136,7 @@ CASES = {
                      functools.partial(_spin1_matrices, "zz"), "D"),
     "spin1_xx": Case("spin1_xx", lambda: _spin1_symbolic("xx"),
                      functools.partial(_spin1_matrices, "xx"), "D"),
+    "rhombic": Case("rhombic", _rhombic_symbolic, _rhombic_matrices, "D"),
     "two_level": Case("two_level", _two_level_symbolic, _two_level_matrices, "Delta",
                       positive=("Delta",)),
     "tilted_pair": Case("tilted_pair", _tilted_pair_symbolic, _tilted_pair_matrices, "J"),
