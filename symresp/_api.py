@@ -10,6 +10,8 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Literal
 
+import types
+
 import numpy as np
 import sympy as sp
 
@@ -18,6 +20,7 @@ from ._public import public
 from .algebra import Operator, Site, to_array, to_sympy_matrix
 from .cases import find_case, read_case
 from .checks import Report, Verdict, compare, consistency
+from .emit import latex_document, numpy_functions, numpy_module_source
 from .conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from .errors import InputError
 from .models import Budget, System
@@ -239,7 +242,7 @@ class Response:
     >>> q = sr.spin("q", sr.Rational(1, 2))
     >>> r = sr.Model(Delta * q.z).response(2 * q.x)        # two-level system, A = B = sigma_x
     >>> r.poles()
-    [(Delta, tanh(Delta*beta/2)), (-Delta, -tanh(Delta*beta/2))]
+    [(-Delta, -tanh(Delta*beta/2)), (Delta, tanh(Delta*beta/2))]
     >>> sp.simplify(r.frequency() - 2*Delta*sp.tanh(sr.beta*Delta/2)/(Delta**2 - sr.omega**2))
     0
     """
@@ -447,6 +450,43 @@ class Response:
         True
         """
         return consistency(self._d, points=points, seed=seed)
+
+    def numpy(self) -> types.ModuleType:
+        """Compiled numpy evaluators of this response (no sympy at run time); see docs/evaluators.md.
+
+        Examples
+        --------
+        >>> import symresp as sr
+        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> sr.Model(0 * s.z).response(s.z).numpy().chi_isothermal(0.5)
+        0.5
+        """
+        return numpy_functions(self._d)
+
+    def evaluator_source(self, *, name: str | None = None) -> str:
+        """Source of the standalone numpy module (write it to a file, import it anywhere).
+
+        Examples
+        --------
+        >>> import symresp as sr
+        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> "import sympy" in sr.Model(0 * s.z).response(s.z).evaluator_source()
+        False
+        """
+        return numpy_module_source(self._d, name=name)
+
+    def latex_document(self, *, substitutions: Mapping | None = None,
+                       symbol_names: Mapping | None = None) -> str:
+        """Paper-ready LaTeX (aligned): Z, levels, poles, chi(omega), static chi.
+
+        Examples
+        --------
+        >>> import symresp as sr
+        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> "\\begin{aligned}" in sr.Model(0 * s.z).response(s.z).latex_document()
+        True
+        """
+        return latex_document(self._d, substitutions=substitutions, symbol_names=symbol_names)
 
     def summary(self) -> str:
         """A readable derivation summary: levels, transitions, Z, static and dynamic chi.

@@ -70,6 +70,20 @@ def _sample_point(params: tuple[sp.Symbol, ...]) -> dict[sp.Symbol, sp.Rational]
     return {p: sp.Rational(2, 3) + sp.Rational(k, 7) for k, p in enumerate(params)}
 
 
+def _hyperbolic_form(n: sp.Expr, d: sp.Expr) -> sp.Expr | None:
+    """c*tanh(y/2) or c*coth(y/2) when n/d = c*(e^y - 1)/(e^y + 1) (or its inverse) for one e^y."""
+    z = sp.Dummy("z", positive=True)
+    for E in sorted(d.atoms(sp.exp), key=sp.default_sort_key):
+        ratio = sp.cancel((n / d).subs(E, z))
+        if ratio.has(sp.exp):
+            continue
+        for shape, form in (((z - 1) / (z + 1), sp.tanh), ((z + 1) / (z - 1), sp.coth)):
+            c = sp.cancel(ratio / shape)
+            if not c.has(z):
+                return sp.factor(c) * form(E.args[0] / 2)
+    return None
+
+
 def present(expr: sp.Expr, *, max_ops: int = 400) -> sp.Expr:
     """Presentable form: common denominator and factored pieces, for expressions of moderate size."""
     if expr.has(sp.CRootOf) or sp.count_ops(expr) > max_ops:
@@ -80,9 +94,10 @@ def present(expr: sp.Expr, *, max_ops: int = 400) -> sp.Expr:
         return expr
     e = sp.together(expr)
     n, d = sp.fraction(e)
-    n = sp.factor(sp.expand(n))
-    d = sp.factor(sp.expand(d))
-    return n / d
+    n = sp.factor(sp.powsimp(sp.expand(n), combine="exp"))
+    d = sp.factor(sp.powsimp(sp.expand(d), combine="exp"))
+    hyper = _hyperbolic_form(n, d) if len(d.atoms(sp.exp)) == 1 else None
+    return hyper if hyper is not None else sp.powsimp(n / d, combine="exp")
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -164,6 +179,8 @@ class Derivation:
                 merged[key] = sp.Integer(0)
                 order.append(key)
             merged[key] += s * sig * tr.weight
+        pt = _sample_point(self.system.parameters)
+        order.sort(key=lambda k: (complex(sp.N(k.subs(pt), 15)).real, sp.default_sort_key(k)))
         return [(k, present(merged[k])) for k in order]
 
     # ------------------------------------------------------------ static
