@@ -3,7 +3,8 @@
 Owns :func:`main` and :func:`build_parser`. Imports argparse and the layers below (cases,
 response, emit, models, errors); printing lives in :mod:`._format`, plots in :mod:`._plot`.
 
-Exit codes: 0 success; 1 a verification mismatch, a derivation that hit its budget or has no
+Exit codes: 0 success; 1 a verification mismatch, a hand formula that differs from the derived
+one (``check``), a failed consistency check, a derivation that hit its budget or has no
 closed form, or an internal error (a bug: the message asks for a report; ``--debug`` shows
 the traceback); 2 bad input (malformed case file or formula, unknown case, bad option), with
 ``error: <message>`` on stderr and no traceback.
@@ -23,9 +24,12 @@ from pathlib import Path
 from .. import emit as emit_layer
 from ..cases import (QUANTITIES, Case, bundled_cases, case_directories, case_summary, derive_case,
                      find_case, read_case, response_curves, verify_case)
+from ..checks import QUANTITIES as CHECKED_QUANTITIES
+from ..checks import compare, consistency
 from ..errors import InputError, SymrespError
 from ..models import Budget
 from ..response import Derivation
+from ..text import ParseError
 from ._format import derivation_json, describe_case, describe_derivation, verification_table
 from ._plot import HAVE_MATPLOTLIB, write_plots
 
@@ -87,6 +91,30 @@ def _seed(text: str) -> int:
     return v
 
 
+def _whole_number(low: int, high: int) -> Callable[[str], int]:
+    """An argparse type: a whole number from ``low`` to ``high``."""
+    def parse(text: str) -> int:
+        try:
+            v = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+        if not low <= v <= high:
+            raise argparse.ArgumentTypeError(f"{text!r} must be from {low} to {high}")
+        return v
+    return parse
+
+
+def _case_parent(common: argparse.ArgumentParser, response_help: str) -> argparse.ArgumentParser:
+    """Options of the commands that work on one case: CASE, --response, --budget."""
+    with_case = argparse.ArgumentParser(add_help=False, parents=[common])
+    with_case.add_argument("case", metavar="CASE",
+                           help="a case file (path) or the name of a bundled case, e.g. dimer")
+    with_case.add_argument("--response", "-r", metavar="LABEL", help=response_help)
+    with_case.add_argument("--budget", type=_positive_float, metavar="SECONDS", default=600.0,
+                           help="time limit of each derivation (default: 600)")
+    return with_case
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``symresp`` command."""
     common = argparse.ArgumentParser(add_help=False)
@@ -94,13 +122,9 @@ def build_parser() -> argparse.ArgumentParser:
                         help="do not print progress stages on stderr")
     common.add_argument("--debug", action="store_true",
                         help="show the Python traceback of an internal error")
-    with_case = argparse.ArgumentParser(add_help=False, parents=[common])
-    with_case.add_argument("case", metavar="CASE",
-                           help="a case file (path) or the name of a bundled case, e.g. dimer")
-    with_case.add_argument("--response", "-r", metavar="LABEL",
-                           help="only the response with this label (default: all)")
-    with_case.add_argument("--budget", type=_positive_float, metavar="SECONDS", default=600.0,
-                           help="time limit of each derivation (default: 600)")
+    with_case = _case_parent(common, "only the response with this label (default: all)")
+    one_response = _case_parent(common, "the response to compare with; needed when the case has "
+                                        "several (not for --quantity partition)")
 
     parser = argparse.ArgumentParser(
         prog="symresp",
@@ -137,6 +161,45 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--seed", type=_seed, default=0, metavar="S",
                    help="seed of the random points (default 0)")
     p.set_defaults(run=_cmd_verify)
+
+    p = sub.add_parser("check", parents=[one_response],
+                       help="compare a hand-derived formula with the derived one",
+                       description="Compare a hand-derived formula with the derived quantity at "
+                                   "random points (and symbolically when it agrees there); when "
+                                   "they differ, name the common slip that explains it and show "
+                                   "a point with both values. Exit status 0 if it agrees, 1 if "
+                                   "it differs.",
+                       epilog="The formula may use the model parameters, beta and T (T = 1/beta), "
+                              "omega and eta for frequency, t for time, and the functions of the "
+                              "case-file language (exp, cosh, tanh, sqrt, ...). A formula that "
+                              "begins with '-' is given as --formula=-... . See docs/checking.md.")
+    source = p.add_mutually_exclusive_group(required=True)
+    source.add_argument("--formula", metavar="TEXT", help="the formula, e.g. '2*beta/(3 + exp(J/T))'")
+    source.add_argument("--formula-file", metavar="PATH",
+                        help="read the formula from this file ('-': standard input); it may span "
+                             "several lines")
+    p.add_argument("--quantity", choices=CHECKED_QUANTITIES, default="isothermal", metavar="Q",
+                   help=f"what the formula is: {', '.join(CHECKED_QUANTITIES)} (default: "
+                        f"isothermal)")
+    p.add_argument("--samples", type=_whole_number(3, 100), default=9, metavar="N",
+                   help="number of random points (3-100, default 9)")
+    p.add_argument("--seed", type=_seed, default=0, metavar="S",
+                   help="seed of the random points (default 0)")
+    p.set_defaults(run=_cmd_check)
+
+    p = sub.add_parser("consistency", parents=[with_case],
+                       help="run the physical consistency checks of each response",
+                       description="Run every consistency check that applies to each response "
+                                   "(sum rules, Kramers-Kronig, fluctuation-dissipation, "
+                                   "positivity, Onsager reciprocity, high-temperature limit, "
+                                   "agreement with exact diagonalisation) at random points and "
+                                   "print a table per response; exit status 1 if any check "
+                                   "fails.")
+    p.add_argument("--points", type=_whole_number(1, 50), default=3, metavar="N",
+                   help="number of random points (1-50, default 3)")
+    p.add_argument("--seed", type=_seed, default=0, metavar="S",
+                   help="seed of the random points (default 0)")
+    p.set_defaults(run=_cmd_consistency)
 
     p = sub.add_parser("plot", parents=[with_case],
                        help="plot chi''(omega), chi(T) and chi*T to PNG files",
@@ -268,6 +331,85 @@ def _cmd_verify(args: argparse.Namespace, progress: _Progress) -> int:
           f"({case.source})")
     print("\n".join(verification_table(result)))
     return EXIT_OK if result.ok else EXIT_FAILURE
+
+
+def _formula_text(args: argparse.Namespace) -> tuple[str, str]:
+    """The formula of ``check`` and the name of its source (for parse errors).
+
+    Trailing whitespace of a file is dropped, so that a fault at the end of the formula (a
+    missing ')') points at its last line rather than at the empty line after the final newline;
+    positions before it are unchanged.
+    """
+    if args.formula is not None:
+        return args.formula, "<formula>"
+    path = args.formula_file
+    if path == "-":
+        return sys.stdin.read().rstrip(), "<stdin>"
+    try:
+        return Path(path).read_text(encoding="utf-8").rstrip(), path
+    except UnicodeDecodeError:
+        raise InputError(f"--formula-file {path}: not a UTF-8 text file") from None
+    except OSError as err:
+        raise InputError(f"--formula-file {path}: cannot read the file "
+                         f"({err.strerror or err})") from None
+
+
+def _response_header(case: Case, label: str) -> str:
+    if label == "levels":
+        return "levels only (the case asks for no [[response]])"
+    r = case.response(label)
+    return f"response '{label}' (A = {r.A_text}, B = {r.B_text})"
+
+
+def _cmd_check(args: argparse.Namespace, progress: _Progress) -> int:
+    formula, source = _formula_text(args)
+    case = _load(args, progress)
+    if not case.responses and args.quantity != "partition":
+        raise InputError(f"{case.source}: the case asks for no [[response]]; only "
+                         f"--quantity partition can be checked")
+    if len(case.responses) > 1:
+        if args.quantity != "partition":
+            labels = ", ".join(r.label for r in case.responses)
+            raise InputError(f"{case.source}: the case has {len(case.responses)} responses "
+                             f"({labels}); choose one with --response LABEL")
+        # Z depends on H alone: any one response carries it
+        case = dataclasses.replace(case, responses=case.responses[:1])
+    label, d = _derive(case, args, progress)[0]
+    progress(f"comparing the formula with the {args.quantity} quantity of '{label}'")
+    try:
+        verdict = compare(d, formula, args.quantity, samples=args.samples, seed=args.seed)
+    except ParseError as err:
+        if source == "<formula>" or err.source != "<formula>":
+            raise
+        raise ParseError(err.reason, source=source, line=err.line, column=err.column,
+                         excerpt=err.excerpt) from None
+    print(f"check {case.name}: {_response_header(case, label)}, quantity {args.quantity} "
+          f"({case.source})")
+    print(verdict.text())
+    return EXIT_OK if verdict.agrees else EXIT_FAILURE
+
+
+def _cmd_consistency(args: argparse.Namespace, progress: _Progress) -> int:
+    case = _load(args, progress)
+    if not case.responses:
+        raise InputError(f"{case.source}: the case asks for no [[response]]; there is nothing to "
+                         f"check")
+    derived = _derive(case, args, progress)
+    print(f"consistency {case.name}: physical checks of the derived responses ({case.source})")
+    failed = []
+    for label, d in derived:
+        progress(f"checking '{label}'")
+        report = consistency(d, points=args.points, seed=args.seed)
+        print(f"\n== {_response_header(case, label)}")
+        print(report.table())
+        failed += [f"'{label}': {name}" for name in report.failed]
+    print()
+    if failed:
+        print(f"FAILED: {'; '.join(failed)}")
+        return EXIT_FAILURE
+    print(f"all applicable checks pass for {len(derived)} response(s) (seed {args.seed}, "
+          f"{args.points} point(s))")
+    return EXIT_OK
 
 
 def _cmd_plot(args: argparse.Namespace, progress: _Progress) -> int:

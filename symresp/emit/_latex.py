@@ -118,8 +118,8 @@ def latex_document(derivation: Derivation, *, substitutions: Mapping | None = No
     >>> print("\n".join(l for l in doc.splitlines() if l.startswith(("E_", r"\Omega"))))
     E_{1} &= \frac{\Delta}{2}, & d_{1} &= 1 \quad (S^z = \frac{1}{2}) \\
     E_{2} &= - \frac{\Delta}{2}, & d_{2} &= 1 \quad (S^z = - \frac{1}{2}) \\
-    \Omega_{1} &= - \Delta, & w_{1} &= \frac{1 - e^{\Delta \beta}}{e^{\Delta \beta} + 1} \\
-    \Omega_{2} &= \Delta, & w_{2} &= \frac{e^{\Delta \beta} - 1}{e^{\Delta \beta} + 1} \\
+    \Omega_{1} &= - \Delta, & w_{1} &= - \tanh{\left(\frac{\Delta \beta}{2} \right)} \\
+    \Omega_{2} &= \Delta, & w_{2} &= \tanh{\left(\frac{\Delta \beta}{2} \right)} \\
 
     See Also
     --------

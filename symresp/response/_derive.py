@@ -67,7 +67,10 @@ class Transition:
 
 
 def _sample_point(params: tuple[sp.Symbol, ...]) -> dict[sp.Symbol, sp.Rational]:
-    return {p: sp.Rational(2, 3) + sp.Rational(k, 7) for k, p in enumerate(params)}
+    """A generic point used only to order levels for presentation: positive parameters
+    (couplings) of order one, sign-free ones (fields, detunings) small."""
+    return {p: (sp.Rational(2, 3) + sp.Rational(k, 7)) if p.is_positive else
+            (sp.Rational(1, 10) + sp.Rational(k, 37)) for k, p in enumerate(params)}
 
 
 def _hyperbolic_form(n: sp.Expr, d: sp.Expr) -> sp.Expr | None:
