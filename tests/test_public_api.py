@@ -5,6 +5,7 @@ from __future__ import annotations
 import doctest
 import inspect
 
+import pytest
 import sympy as sp
 
 import symresp as sr
@@ -62,3 +63,23 @@ def test_public_classes_show_the_public_module_path():
     for obj in REGISTERED:
         if inspect.isclass(obj):
             assert obj.__module__ == "symresp", obj
+
+
+def _public_doctests():
+    finder = doctest.DocTestFinder(exclude_empty=True)
+    seen = set()
+    for obj in REGISTERED:
+        for test in finder.find(obj, getattr(obj, "__name__", "obj"), module=False, globs={}):
+            if test.examples and test.name not in seen:
+                seen.add(test.name)
+                yield test
+
+
+@pytest.mark.parametrize("test", list(_public_doctests()), ids=lambda t: t.name)
+def test_doctests_of_public_objects_and_their_methods_pass(test):
+    # pytest's module collection skips objects whose __module__ was set to "symresp" (and their
+    # methods), so the examples of the public surface are run here explicitly.
+    runner = doctest.DocTestRunner(optionflags=doctest.ELLIPSIS | doctest.NORMALIZE_WHITESPACE)
+    out: list[str] = []
+    result = runner.run(test, out=out.append)
+    assert result.failed == 0, "".join(out)

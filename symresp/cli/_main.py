@@ -174,7 +174,8 @@ def build_parser() -> argparse.ArgumentParser:
                               "case-file language (exp, cosh, tanh, sqrt, ...). A formula that "
                               "begins with '-' is given as --formula=-... . See docs/checking.md.")
     source = p.add_mutually_exclusive_group(required=True)
-    source.add_argument("--formula", metavar="TEXT", help="the formula, e.g. '2*beta/(3 + exp(J/T))'")
+    source.add_argument("--formula", metavar="TEXT",
+                        help="the formula, e.g. '2*beta/(3 + exp(J/T))'")
     source.add_argument("--formula-file", metavar="PATH",
                         help="read the formula from this file ('-': standard input); it may span "
                              "several lines")

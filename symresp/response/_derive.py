@@ -311,13 +311,35 @@ class Derivation:
         return [(Om, sp.pi * w) for Om, w in self.poles()]
 
     def zero_temperature(self, kind: StaticKind = "isothermal") -> sp.Expr:
-        r"""Static susceptibility at T = 0 assuming the reference level is the ground level
-        (true on the parameter region containing the sample point used to order levels)."""
-        val = self.static(kind)
-        lim = sp.limit(val, beta, sp.oo) if sp.count_ops(val) < 300 else None
-        if lim is None or lim.has(sp.AccumBounds) or lim.has(sp.Limit):
-            raise InputError("zero_temperature: the limit could not be taken in closed form")
-        return present(lim)
+        r"""Static susceptibility at T = 0, with the reference level taken as the ground level.
+
+        With :math:`p_g = 1/d_g` on the ground level g and zero elsewhere,
+        :math:`\chi^{\rm isol}(0) = d_g^{-1}\sum_{b \ne g} (W_{gb} + W_{bg})/(E_b - E_g)`; the
+        isothermal value adds :math:`\beta(W_{gg}/d_g - \langle A\rangle_g\langle B\rangle_g)`, which
+        diverges (Curie term) unless the ground level carries no fluctuation of A and B. Valid on the
+        parameter region where the reference level is lowest (it is at the sample point used to
+        order levels).
+        """
+        if kind not in ("isothermal", "isolated"):
+            raise InputError(f"zero_temperature: kind={kind!r} must be 'isothermal' or 'isolated'")
+        g = self.reference
+        dg = self.levels[g].degeneracy
+        Eg = self.levels[g].energy
+        iso = sp.Integer(0)
+        for (a, b), W in self.level_weights.items():
+            if a == g and b != g:
+                iso += W / (self.levels[b].energy - Eg)
+            elif b == g and a != g:
+                iso += W / (self.levels[a].energy - Eg)
+        iso = present(self.convention.sign * iso / dg)
+        if kind == "isolated":
+            return iso
+        curie = (self.level_weights.get((g, g), sp.Integer(0)) / dg
+                 - self.expect_A.get(g, sp.Integer(0)) * self.expect_B.get(g, sp.Integer(0)) / dg**2)
+        curie = sp.simplify(curie) if sp.count_ops(curie) < 200 else curie
+        if curie != 0:
+            return sp.oo * sp.sign(self.convention.sign * curie)
+        return iso
 
 
 def _group_levels(spec: Spectrum) -> tuple[list[Level], list[int]]:
