@@ -17,7 +17,7 @@ import sympy as sp
 
 from . import numeric
 from ._public import public
-from .algebra import Operator, Site, to_array, to_sympy_matrix
+from .algebra import Operator, Site, describe, to_array, to_sympy_matrix
 from .cases import find_case, read_case
 from .checks import Report, Verdict, compare, consistency
 from .emit import latex_document, numpy_functions, numpy_module_source
@@ -514,7 +514,7 @@ class Response:
         """
         d = self._d
         lines = [f"Linear response chi_AB of model {d.system.name!r}",
-                 f"  A = {d.A}", f"  B = {d.B}",
+                 f"  A = {describe(d.A)}", f"  B = {describe(d.B)}",
                  f"  convention: {d.convention.describe()}",
                  f"  blocks: {d.spectrum.structure.describe()}", "", "Levels (E, degeneracy, quantum numbers):"]
         for lv in d.levels:
@@ -552,7 +552,7 @@ class Response:
         return "$$" + self.latex() + "$$"
 
     def __repr__(self) -> str:
-        return f"Response(A={self._d.A}, B={self._d.B}, levels={len(self._d.levels)})"
+        return f"Response(A={describe(self._d.A)}, B={describe(self._d.B)}, levels={len(self._d.levels)})"
 
 
 def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T: float | None,

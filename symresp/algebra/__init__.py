@@ -4,7 +4,7 @@ Imports sympy, numpy, :mod:`symresp.errors` and :mod:`symresp.conventions` only.
 """
 
 from ._constructors import (MAX_CUTOFF, MAX_LEVELS, MAX_SPIN, LevelSite, SpinSite, SpinVector,
-                            boson, fermion, nlevel, spin, spinful_fermion)
+                            boson, describe, fermion, nlevel, spin, spinful_fermion)
 from ._matrix import MAX_DIMENSION, Basis, SparseForm, sparse_form, to_array, to_sympy_matrix
 from ._operators import Monomial, Operator, anticommutator, as_coefficient, as_operator, commutator, dagger
 from ._sites import Site, local_parity
@@ -12,6 +12,6 @@ from ._sites import Site, local_parity
 __all__ = [
     "Site", "local_parity", "Operator", "Monomial", "as_coefficient", "as_operator", "dagger",
     "commutator", "anticommutator", "spin", "nlevel", "fermion", "spinful_fermion", "boson",
-    "SpinSite", "LevelSite", "SpinVector", "MAX_SPIN", "MAX_LEVELS", "MAX_CUTOFF",
+    "SpinSite", "LevelSite", "describe", "SpinVector", "MAX_SPIN", "MAX_LEVELS", "MAX_CUTOFF",
     "Basis", "SparseForm", "sparse_form", "to_sympy_matrix", "to_array", "MAX_DIMENSION",
 ]

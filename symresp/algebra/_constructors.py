@@ -18,10 +18,11 @@ import sympy as sp
 from .._public import public
 from ..errors import InputError
 from ._operators import Operator, as_coefficient
+from ._operators import dagger as _dagger_of
 from ._sites import Site, check_name
 
 __all__ = ["spin", "nlevel", "fermion", "spinful_fermion", "boson", "SpinSite", "LevelSite",
-           "SpinVector", "MAX_SPIN", "MAX_LEVELS", "MAX_CUTOFF"]
+           "SpinVector", "MAX_SPIN", "MAX_LEVELS", "MAX_CUTOFF", "describe"]
 
 #: Largest spin accepted (dimension 2S + 1 = 21).
 MAX_SPIN = sp.Integer(10)
@@ -375,3 +376,51 @@ def boson(name: str, cutoff: int) -> Operator:
     if not isinstance(cutoff, int) or isinstance(cutoff, bool) or not 1 <= cutoff <= MAX_CUTOFF:
         raise InputError(f"boson {name!r}: cutoff={cutoff!r} must be an integer from 1 to {MAX_CUTOFF}")
     return Operator.local(Site(check_name(name), "boson", cutoff + 1), ("b", 0, 1))
+
+
+def describe(op: Operator) -> str:
+    """Readable form of an operator: a combination of ``s.x``, ``s.y``, ``s.z``, ``n(c)``, ``c``,
+    ``dag(c)``, boson ``a``, ``dag(a)`` and ``n(a)`` when it is one, else the canonical form.
+
+    Examples
+    --------
+    >>> import symresp as sr
+    >>> from symresp.algebra import describe
+    >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", 1)
+    >>> describe(a.z + 2 * b.x)
+    'a.z + 2*b.x'
+    """
+    from_dagger = _dagger_of
+    names: list[tuple[str, Operator]] = []
+    for site in sorted(op.sites, key=lambda s: s.order):
+        if site.kind == "spin":
+            h = SpinSite(site)
+            names += [(f"{site.name}.x", h.x), (f"{site.name}.y", h.y), (f"{site.name}.z", h.z)]
+        elif site.kind in ("fermion", "boson"):
+            c = Operator.local(site, ("u", 0, 1) if site.kind == "fermion" else ("b", 0, 1))
+            cd = from_dagger(c)
+            names += [(site.name, c), (f"dag({site.name})", cd), (f"n({site.name})", cd * c)]
+    if not names:
+        return repr(op)
+    coeffs = sp.symbols(f"k0:{len(names)}")
+    target = {m: c for m, c in op.terms if m != ()}
+    total: dict = {}
+    for k, (_, cand) in zip(coeffs, names):
+        for mono, c in cand.terms:
+            total[mono] = total.get(mono, sp.Integer(0)) + k * c
+    eqs = [total.get(m, sp.Integer(0)) - c for m, c in target.items()]
+    eqs += [v for m, v in total.items() if m not in target and m != ()]
+    sol = sp.solve(eqs, coeffs, dict=True) if eqs else [{}]
+    if not sol:
+        return repr(op)
+    parts = []
+    const = sp.expand(op.scalar_part() - total.get((), sp.Integer(0)).subs(sol[0]).subs({c: 0 for c in coeffs}))
+    if const != 0:
+        parts.append(sp.sstr(const))
+    for k, (name, _) in zip(coeffs, names):
+        v = sp.nsimplify(sol[0].get(k, 0)).subs({c: 0 for c in coeffs})
+        if v == 0:
+            continue
+        parts.append(name if v == 1 else f"-{name}" if v == -1 else f"{sp.sstr(v) if v.is_Atom else '(' + sp.sstr(v) + ')'}*{name}")
+    text = " + ".join(parts) if parts else "0"
+    return text.replace("+ -", "- ")
