@@ -582,7 +582,9 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
         if time_value is None:
             raise InputError("evaluate: give time_value for the 'time' quantity")
         subs[t] = sp.nsimplify(time_value)
-    return complex(sp.N(expr.subs(subs), 30))
+    # Each implicit root is evaluated once (CRootOf isolates its root again on every evalf call).
+    subs.update({r: sp.Float(r.evalf(40), 40) for r in expr.atoms(sp.CRootOf)})
+    return complex(sp.N(expr.xreplace(subs), 30))
 
 
 @public

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import os
+
 import numpy as np
 from hypothesis import HealthCheck, settings
 
@@ -18,7 +20,8 @@ settings.register_profile(
     "thorough", deadline=None, max_examples=300, database=None,
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large],
 )
-settings.load_profile("default")
+# SYMRESP_HYPOTHESIS_PROFILE=thorough runs 300 examples per property (long; not in CI).
+settings.load_profile(os.environ.get("SYMRESP_HYPOTHESIS_PROFILE", "default"))
 
 
 def assert_close(actual, expected, rtol: float = RTOL_EXACT, atol: float = ATOL_EXACT, what: str = "") -> None:

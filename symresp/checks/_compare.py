@@ -579,7 +579,7 @@ def _slip_partition(c: _Comparison) -> Slip | None:
         shift = _exp_shift(c, ratio)
         if shift and any(abs(x) > 1e-12 for _, x in shift):
             cexpr = _identify(c, shift)
-            return "energy-zero", (f"differs by an overall factor exp(-beta*c): energy zero shifted by "
+            return "energy-zero", (f"an overall factor exp(-beta*c): energy zero shifted by "
                                    f"c = {cexpr} (Z depends on it, the susceptibilities do not)")
         return None
     zr = [_reduced_z(c, s) for s in c.samples]

@@ -1,7 +1,8 @@
 """The ``symresp`` command: argument parsing, dispatch and exit codes (layer: cli).
 
 Owns :func:`main` and :func:`build_parser`. Imports argparse and the layers below (cases,
-response, emit, models, errors); printing lives in :mod:`._format`, plots in :mod:`._plot`.
+checks, response, emit, models, text, errors); printing lives in :mod:`._format`, plots in
+:mod:`._plot`.
 
 Exit codes: 0 success; 1 a verification mismatch, a hand formula that differs from the derived
 one (``check``), a failed consistency check, a derivation that hit its budget or has no
