@@ -41,7 +41,7 @@ import sympy as sp
 
 from ..errors import ClosedFormError, InputError
 from ..response import Derivation
-from ..spectrum import clean
+from ..spectrum import LevelRoot, clean
 
 __all__ = ["Plan", "Pair", "Group", "build_plan", "fingerprint", "is_zero"]
 
@@ -175,9 +175,12 @@ def build_plan(d: Derivation) -> Plan:
         symbols |= sp.sympify(v).free_symbols
     original = tuple(sorted(symbols, key=lambda s: s.name))
     for lv in levels:
-        if lv.implicit and any(r.free_symbols for r in lv.energy.atoms(sp.CRootOf)):
+        if lv.implicit and (lv.energy.has(LevelRoot)
+                            or any(r.free_symbols for r in lv.energy.atoms(sp.CRootOf))):
             raise ClosedFormError(f"emit: the level {lv.energy} is a root of a polynomial with "
-                                  "parameter-dependent coefficients; no evaluator can be emitted")
+                                  "parameter-dependent coefficients (semi-closed form); emitted "
+                                  "evaluators for such blocks are not available yet: give numeric "
+                                  "values to all but one parameter of the block")
     safe = _safe_names(original)
     rename = dict(zip(original, safe))
 

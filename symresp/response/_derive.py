@@ -32,7 +32,7 @@ from ..algebra import Operator, sparse_form
 from ..conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from ..errors import InputError
 from ..models import Budget, System
-from ..spectrum import Spectrum, clean, solve
+from ..spectrum import LevelRoot, Spectrum, clean, solve
 
 __all__ = ["Level", "Transition", "Derivation", "derive", "StaticKind", "present"]
 
@@ -89,7 +89,7 @@ def _hyperbolic_form(n: sp.Expr, d: sp.Expr) -> sp.Expr | None:
 
 def present(expr: sp.Expr, *, max_ops: int = 400) -> sp.Expr:
     """Presentable form: common denominator and factored pieces, for expressions of moderate size."""
-    if expr.has(sp.CRootOf) or sp.count_ops(expr) > max_ops:
+    if expr.has(sp.CRootOf, LevelRoot) or sp.count_ops(expr) > max_ops:
         return expr
     if any(p.exp.is_Rational and not p.exp.is_Integer and not p.base.free_symbols
            for p in expr.atoms(sp.Pow)):

@@ -3,8 +3,9 @@
 Imports sympy, python-flint, :mod:`symresp.errors`, :mod:`symresp.algebra`, :mod:`symresp.models`.
 """
 
+from ._roots import LevelRoot
 from ._blocks import Block, BlockStructure, QuantumNumber, decompose
 from ._solve import BlockSolution, Factor, Part, Spectrum, clean, solve
 
-__all__ = ["Block", "BlockStructure", "QuantumNumber", "decompose", "BlockSolution", "Factor",
+__all__ = ["LevelRoot", "Block", "BlockStructure", "QuantumNumber", "decompose", "BlockSolution", "Factor",
            "Part", "Spectrum", "clean", "solve"]

@@ -35,6 +35,7 @@ from fractions import Fraction
 from typing import Literal
 
 import flint
+import mpmath
 import sympy as sp
 from sympy.polys.constructor import construct_domain
 from sympy.polys.matrices import DomainMatrix
@@ -44,8 +45,14 @@ from ..errors import BudgetExceeded, ClosedFormError
 from ..models import Clock, System
 from ._blocks import Block, BlockStructure, decompose
 from ._quadratic import Radical, Surd, bilinear
+from ._roots import LevelRoot
 
 __all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean"]
+
+#: Parametric irreducible factors of higher degree (or in larger blocks) raise ClosedFormError:
+#: their weights as polynomials in the implicit roots grow too large to be useful.
+MAX_IMPLICIT_DEGREE = 3
+MAX_IMPLICIT_BLOCK = 4
 
 _x = sp.Symbol("x__block")  # block variable; a plain Symbol survives polys round trips
 
@@ -59,7 +66,7 @@ def clean(e: sp.Expr) -> sp.Expr:
     simplify() is used, so the cost stays polynomial in the size of the expression.
     """
     e = sp.sympify(e)  # safe: e is always a sympy expression built by symresp
-    if e.is_Rational or e.has(sp.CRootOf):
+    if e.is_Rational or e.has(sp.CRootOf, LevelRoot):
         return sp.expand(e)
     rads = sorted({p for p in e.atoms(sp.Pow) if p.exp == sp.S.Half and p.base.free_symbols},
                   key=sp.default_sort_key)
@@ -277,8 +284,8 @@ class Spectrum:
                         val = _eval_root_poly(coeff, f.roots[ra])
                     elif f.implicit:
                         al = s.alpha(fa, ra)
-                        val = sp.expand(sum((al[k] * _trace_sym(s.sympy_power(k), a_blk)
-                                             for k in range(s.degree)), sp.Integer(0)))
+                        val = _tidy_implicit(sum((al[k] * _trace_sym(s.sympy_power(k), a_blk)
+                                                  for k in range(s.degree)), sp.Integer(0)))
                     else:
                         val = _domain_expectation(s, fa, ra, a_blk)
                     if val != 0:
@@ -299,6 +306,51 @@ class Spectrum:
 
 # id-keyed cache of part indices; entries hold a reference to their Spectrum, so ids never clash.
 _INDEX_CACHE: dict[int, tuple[Spectrum, dict]] = {}
+
+
+#: Digits used to recognise weights that are exactly zero among implicit (algebraic) roots.
+ZERO_TEST_DIGITS = 60
+
+
+def _vanishes(coeffs: dict[tuple[int, int], sp.Expr], xa: sp.Expr, xb: sp.Expr) -> bool:
+    """True when sum_pq c_pq xa^p xb^q is zero, tested at ZERO_TEST_DIGITS digits.
+
+    The value is an algebraic number of small height (rational c_pq, roots of integer
+    polynomials of low degree), so a value below 10**-(digits - 15) of the size of its terms
+    is zero; this recognises the many exactly vanishing weights between distinct roots of one
+    factor (e.g. Tr(P_a M P_b M) = 0 when M commutes with H) without a Groebner reduction.
+    Only numeric (rational-coefficient) weights are tested; others return False.
+    """
+    if any(not c.is_number for c in coeffs.values()):
+        return False
+    with mpmath.workdps(ZERO_TEST_DIGITS):
+        va, vb = _root_value(xa), _root_value(xb)
+        total = mpmath.mpf(0)
+        size = mpmath.mpf(0)
+        for (p, q), c in coeffs.items():
+            cm = mpmath.mpmathify(sp.N(c, ZERO_TEST_DIGITS))
+            term = cm * va**p * vb**q
+            total += term
+            size += abs(term)
+        return bool(abs(total) <= size * mpmath.mpf(10) ** (15 - ZERO_TEST_DIGITS))
+
+
+def _root_value(x: sp.Expr):
+    hit = _ROOT_VALUES.get(x)
+    if hit is None:
+        hit = mpmath.mpmathify(sp.N(x, ZERO_TEST_DIGITS + 10))
+        _ROOT_VALUES[x] = hit
+    return hit
+
+
+# Numeric values of exact algebraic roots (immutable keys; values are pure functions of them).
+_ROOT_VALUES: dict[sp.Expr, object] = {}
+
+
+def _tidy_implicit(w: sp.Expr) -> sp.Expr:
+    """One fraction for weights that are polynomials in implicit roots with parameter coefficients."""
+    # Kept expanded: cancel() over the implicit roots costs several times the derivation itself.
+    return sp.expand(w)
 
 
 def _unified_domain(K, entries: list[sp.Expr]):
@@ -440,8 +492,11 @@ def _pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
                                 c = Wc[p, q]
                                 if c != 0:
                                     total[(p, q)] = total.get((p, q), sp.Integer(0)) + scal * _q(c)
+                implicit_pair = fA.implicit or fB.implicit
                 for ra, xa in enumerate(fA.roots):
                     for rb, xb in enumerate(fB.roots):
+                        if implicit_pair and _vanishes(total, xa, xb):
+                            continue
                         w = sum((c * xa**p * xb**q for (p, q), c in total.items()), sp.Integer(0))
                         w = sp.expand(w) if (xa.is_Rational and xb.is_Rational) or fA.implicit or fB.implicit else clean(w)
                         if w != 0:
@@ -464,7 +519,7 @@ def _pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
                 for rb in range(fB.degree):
                     be = sj.alpha(fb, rb)
                     w = sum((row[l] * be[l] for l in range(sj.degree)), sp.Integer(0))
-                    w = sp.expand(w) if (fA.implicit or fB.implicit) else clean(w)
+                    w = _tidy_implicit(w) if (fA.implicit or fB.implicit) else clean(w)
                     if w != 0:
                         out[(fa, ra, fb, rb)] = w
     return out
@@ -643,12 +698,14 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
         P = sp.Poly(f, _x)
         deg = P.degree()
         cs = P.all_coeffs()
-        if deg >= 3 and not all(c.is_Rational for c in cs):
+        if deg >= 3 and not all(c.is_Rational for c in cs) and (deg > MAX_IMPLICIT_DEGREE
+                                                                 or n > MAX_IMPLICIT_BLOCK):
             raise ClosedFormError(
                 f"{where}: the characteristic polynomial has an irreducible factor of degree {deg} "
                 f"in the parameters ({sp.sstr(f.subs(_x, sp.Symbol('E')))}); its roots have no closed "
-                f"form. Give numeric values to all but one parameter of this block, or use the "
-                f"numeric reference"
+                f"form, and implicit roots are kept symbolically only for factors of degree <= "
+                f"{MAX_IMPLICIT_DEGREE} in blocks of size <= {MAX_IMPLICIT_BLOCK}. Give numeric "
+                f"values to all but one parameter of this block, or use the numeric reference"
             )
         kc = [K.from_sympy(c) for c in cs]
         mcoeffs = _poly_mul(K, mcoeffs, kc)
@@ -664,9 +721,11 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
             kroots.append(lams)
             factors.append(Factor(tuple(cs), int(mult), tuple(lm.to_sympy() for lm in lams), False))
         else:
-            # Numeric factor of a complex-Hermitian block: exact real roots, semi-closed form.
+            # No closed form: exact implicit roots (CRootOf for rational coefficients, LevelRoot
+            # for parameter-dependent ones), evaluated numerically only where a number is asked for.
             kroots.append(None)
-            factors.append(Factor(tuple(cs), int(mult), tuple(sp.CRootOf(P, k) for k in range(deg)), True))
+            roots = tuple(LevelRoot(k, *cs) for k in range(deg))
+            factors.append(Factor(tuple(cs), int(mult), roots, True))
         if clock:
             clock.check("roots", where)
     lead = mcoeffs[0]
@@ -677,11 +736,10 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
     kalphas, alphas = [], []
     for f, lams in zip(factors, kroots):
         if lams is None:
-            fP = sp.Poly(f.coeffs, _x, domain="QQ")
-            mQ = sp.Poly([K.to_sympy(c) for c in mcoeffs], _x, domain="QQ")
+            fP = sp.Poly.from_list([K.from_sympy(c) for c in f.coeffs], _x, domain=K)
+            mQ = sp.Poly.from_list(mcoeffs, _x, domain=K)
             inv = mQ.diff(_x).rem(fP).invert(fP)
-            red = [(sp.Poly([K.to_sympy(c) for c in mc[k + 1:]][::-1], _x, domain="QQ") * inv).rem(fP)
-                   for k in range(D)]
+            red = [(sp.Poly.from_list(mc[k + 1:][::-1], _x, domain=K) * inv).rem(fP) for k in range(D)]
             alphas.append(tuple(tuple(sp.expand(r.as_expr().subs(_x, lam)) for r in red) for lam in f.roots))
             kalphas.append(None)
             continue

@@ -64,3 +64,21 @@ def test_four_site_ring_matches_exact_diagonalisation():
 @pytest.mark.parametrize("N", [6, 8])
 def test_larger_rings_match_exact_diagonalisation(N):
     _check_ring(N)
+
+
+def test_parametric_cubic_block_is_semi_closed_and_matches_exact_diagonalisation():
+    # Spin 1 with axial D and a field with x and z components: the 3x3 block mixes three
+    # parameters and its characteristic polynomial is an irreducible cubic, so the levels are
+    # kept as exact implicit roots (LevelRoot) and evaluated numerically only at numbers.
+    D, hz, hx = (sp.Symbol(n, positive=True) for n in ("D", "hz", "hx"))
+    s = sr.spin("s", 1)
+    r = sr.Model(D * s.z * s.z + hz * s.z + hx * s.x).response(s.x)
+    assert not r.is_closed_form
+    assert all(lv.implicit for lv in r.levels)
+    p = {"D": 1.3, "hz": 0.4, "hx": 0.7}
+    ref = r.reference(params=p, T=0.8)
+    assert_close(r.evaluate("isothermal", params=p, T=0.8), ref.isothermal, what="isothermal")
+    assert_close(r.evaluate("isolated", params=p, T=0.8), ref.isolated, what="isolated")
+    # With rational parameter values the implicit roots become exact algebraic numbers.
+    E0 = r.levels[0].energy.subs({D: 1, hz: sp.Rational(1, 2), hx: sp.Rational(1, 3)})
+    assert isinstance(E0, sp.CRootOf)
