@@ -20,6 +20,7 @@ import types
 
 import sympy as sp
 
+from ..algebra import describe
 from ..errors import InputError
 from ..response import Derivation
 from ._plan import Plan, build_plan, fingerprint
@@ -84,8 +85,8 @@ def _header(d: Derivation, plan: Plan, fp: str, version: str, name: str) -> str:
         "",
         "Do not edit: regenerate with symresp.emit.numpy_module_source(...).",
         "",
-        f"Measured operator A = {d.A}",
-        f"Driving operator  B = {d.B}",
+        f"Measured operator A = {describe(d.A)}",
+        f"Driving operator  B = {describe(d.B)}",
         f"Convention: {d.convention.describe()}",
         f"Model fingerprint (sha256 of H, sector, sites, A, B): {fp}",
         "",
