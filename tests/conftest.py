@@ -13,7 +13,7 @@ RTOL_EXACT, ATOL_EXACT = 1e-10, 1e-12
 RTOL_LOOSE, ATOL_LOOSE = 1e-8, 1e-10
 
 settings.register_profile(
-    "default", deadline=None, max_examples=20, database=None,
+    "default", deadline=None, max_examples=20, database=None, derandomize=True,
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large],
 )
 settings.register_profile(

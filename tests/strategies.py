@@ -135,7 +135,7 @@ class RandomModel:
 
 
 @st.composite
-def random_models(draw, *, max_sites: int = 3, max_dim: int = 12, symbolic: bool = True):
+def random_models(draw, *, max_sites: int = 3, max_dim: int = 8, symbolic: bool = True):
     """A random Hermitian model (1..max_sites sites), with random A and B, built twice."""
     kinds = []
     n_sites = draw(st.integers(1, max_sites))

@@ -32,7 +32,7 @@ from ..algebra import Operator, sparse_form
 from ..conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from ..errors import InputError
 from ..models import Budget, System
-from ..spectrum import LevelRoot, Spectrum, clean, solve
+from ..spectrum import LevelRoot, Spectrum, clean, is_zero_number, solve
 
 __all__ = ["Level", "Transition", "Derivation", "derive", "StaticKind", "present"]
 
@@ -229,7 +229,7 @@ class Derivation:
             if key in used:
                 continue
             rev = index.get((tr.upper, tr.lower))
-            if rev is not None and sp.expand(rev.matrix_weight - tr.matrix_weight) == 0:
+            if rev is not None and _equal_weights(rev.matrix_weight, tr.matrix_weight):
                 # w(b->a) = (p_b - p_a) W_ba = -w(a->b) when W_ba = W_ab
                 up = tr if self._is_upward(tr) else rev
                 paired.append(up)
@@ -340,6 +340,15 @@ class Derivation:
         if curie != 0:
             return sp.oo * sp.sign(self.convention.sign * curie)
         return iso
+
+
+def _equal_weights(x: sp.Expr, y: sp.Expr) -> bool:
+    if x == y:
+        return True
+    diff = x - y
+    if diff.free_symbols:
+        return sp.expand(diff) == 0
+    return is_zero_number(diff)
 
 
 def _group_levels(spec: Spectrum) -> tuple[list[Level], list[int]]:

@@ -5,7 +5,7 @@ Imports sympy, python-flint, :mod:`symresp.errors`, :mod:`symresp.algebra`, :mod
 
 from ._roots import LevelRoot
 from ._blocks import Block, BlockStructure, QuantumNumber, decompose
-from ._solve import BlockSolution, Factor, Part, Spectrum, clean, solve
+from ._solve import BlockSolution, Factor, Part, Spectrum, clean, is_zero_number, solve
 
 __all__ = ["LevelRoot", "Block", "BlockStructure", "QuantumNumber", "decompose", "BlockSolution", "Factor",
-           "Part", "Spectrum", "clean", "solve"]
+           "Part", "Spectrum", "clean", "is_zero_number", "solve"]

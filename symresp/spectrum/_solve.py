@@ -47,7 +47,7 @@ from ._blocks import Block, BlockStructure, decompose
 from ._quadratic import Radical, Surd, bilinear
 from ._roots import LevelRoot
 
-__all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean"]
+__all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean", "is_zero_number"]
 
 #: Parametric irreducible factors of higher degree (or in larger blocks) raise ClosedFormError:
 #: their weights as polynomials in the implicit roots grow too large to be useful.
@@ -348,9 +348,29 @@ _ROOT_VALUES: dict[sp.Expr, object] = {}
 
 
 def _tidy_implicit(w: sp.Expr) -> sp.Expr:
-    """One fraction for weights that are polynomials in implicit roots with parameter coefficients."""
-    # Kept expanded: cancel() over the implicit roots costs several times the derivation itself.
-    return sp.expand(w)
+    """A weight that is a polynomial in implicit roots.
+
+    Numeric weights (roots of rational polynomials only) are tested for an exact zero at
+    ZERO_TEST_DIGITS digits and otherwise kept as they are (expanding products of root
+    polynomials costs far more than evaluating them); parametric ones are expanded.
+    """
+    if w.free_symbols:
+        return sp.expand(w)
+    return sp.Integer(0) if is_zero_number(w) else w
+
+
+def is_zero_number(w: sp.Expr) -> bool:
+    """Whether a parameter-free exact number (possibly with CRootOf) is zero.
+
+    Exact rationals and radicals are decided exactly; expressions with implicit roots by a
+    ZERO_TEST_DIGITS-digit evaluation with each root evaluated once (see :func:`_vanishes`).
+    """
+    if not w.has(sp.CRootOf):
+        return sp.expand(w) == 0
+    with mpmath.workdps(ZERO_TEST_DIGITS + 10):
+        roots = {r: sp.Float(_root_value(r), ZERO_TEST_DIGITS + 10) for r in w.atoms(sp.CRootOf)}
+        value = sp.N(w.xreplace(roots), ZERO_TEST_DIGITS)
+    return abs(complex(value)) < 10.0 ** (15 - ZERO_TEST_DIGITS)
 
 
 def _unified_domain(K, entries: list[sp.Expr]):
