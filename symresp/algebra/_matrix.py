@@ -154,6 +154,6 @@ def to_array(op: Operator, basis: Basis, params: Mapping[sp.Symbol, complex] | N
         try:
             arr[r, c] = complex(val)
         except TypeError:
-            free = ", ".join(sorted(map(str, sp.sympify(val).free_symbols)))
+            free = ", ".join(sorted(map(str, sp.sympify(val).free_symbols)))  # safe: a sympy object or number from symresp, never user text
             raise InputError(f"no numeric value given for parameter(s) {free} (pass params=...)") from None
     return arr

@@ -46,7 +46,7 @@ def evaluate_precise(expr: sp.Expr, values: Mapping[sp.Symbol, complex | float],
     env = {k: ctx.mpmathify(complex(v)) if complex(v).imag else ctx.mpf(float(complex(v).real))
            for k, v in values.items()}
     walker = _Walker(_mp_backend(ctx, digits), env)
-    return complex(walker.eval(_as_basic(expr)))
+    return complex(walker.value_of(_as_basic(expr)))
 
 
 def evaluate_arrays(expr: sp.Expr, values: Mapping[sp.Symbol, object]) -> np.ndarray:
@@ -64,7 +64,7 @@ def evaluate_arrays(expr: sp.Expr, values: Mapping[sp.Symbol, object]) -> np.nda
     """
     env = {k: np.asarray(v, dtype=complex) for k, v in values.items()}
     with np.errstate(all="ignore"):
-        v = _Walker(_np_backend(), env).eval(_as_basic(expr))
+        v = _Walker(_np_backend(), env).value_of(_as_basic(expr))
         shape = np.broadcast_shapes(*[a.shape for a in env.values()]) if env else ()
         return np.broadcast_to(np.asarray(v, dtype=complex), shape).copy()
 
@@ -141,7 +141,7 @@ class _Walker:
         self.env = env
         self.memo: dict[sp.Basic, object] = {}
 
-    def eval(self, node: sp.Basic):
+    def value_of(self, node: sp.Basic):
         hit = self.memo.get(node)
         if hit is not None:
             return hit
@@ -160,26 +160,26 @@ class _Walker:
         if node.is_Rational or node.is_Float or isinstance(node, sp.CRootOf):
             return b.number(node)
         if node.is_Add:
-            args = [self.eval(a) for a in node.args]
+            args = [self.value_of(a) for a in node.args]
             total = args[0]
             for a in args[1:]:
                 total = total + a
             return total
         if node.is_Mul:
-            args = [self.eval(a) for a in node.args]
+            args = [self.value_of(a) for a in node.args]
             total = args[0]
             for a in args[1:]:
                 total = total * a
             return total
         if node.is_Pow:
-            base = self.eval(node.base)
+            base = self.value_of(node.base)
             if node.exp.is_Integer:
                 e = int(node.exp)
                 return base ** e if e >= 0 else 1 / (base ** (-e))
-            return b.power(base, self.eval(node.exp))
+            return b.power(base, self.value_of(node.exp))
         f = b.functions.get(node.func)
         if f is not None and len(node.args) == 1:
-            return f(self.eval(node.args[0]))
+            return f(self.value_of(node.args[0]))
         if node.is_number:
             return b.number(node)
         raise InputError(f"numeric evaluation: cannot evaluate {node.func.__name__} "

@@ -41,7 +41,7 @@ def _check_substitutions(substitutions: object) -> list[tuple[sp.Symbol, sp.Expr
         if not isinstance(k, sp.Symbol):
             raise InputError(f"latex_document: substitution key {k!r} must be a sympy Symbol")
         try:
-            expr = sp.sympify(v, strict=True)
+            expr = sp.sympify(v, strict=True)  # safe: strict mode rejects strings; only sympy objects or Python numbers
         except (sp.SympifyError, TypeError):
             raise InputError(f"latex_document: substitution {k} = {v!r} is not an expression") from None
         if not isinstance(expr, sp.Expr) or expr.has(sp.Float):
@@ -74,7 +74,7 @@ def _label(name: str) -> str:
 def _roots(exprs: list[sp.Expr]) -> dict[sp.Expr, sp.Symbol]:
     atoms: set = set()
     for e in exprs:
-        atoms |= sp.sympify(e).atoms(sp.CRootOf)
+        atoms |= sp.sympify(e).atoms(sp.CRootOf)  # safe: a sympy object or number from symresp, never user text
     ordered = sorted(atoms, key=lambda r: (sp.default_sort_key(r.poly.as_expr()), r.index))
     return {r: sp.Symbol(f"r_{k + 1}") for k, r in enumerate(ordered)}
 
@@ -142,7 +142,7 @@ def latex_document(derivation: Derivation, *, substitutions: Mapping | None = No
     roots = _roots([*energies, *statics, freq, *[x for p in poles for x in p], d.partition()])
 
     def tex(e: sp.Expr, present: bool = True) -> str:
-        e = sp.sympify(e).xreplace(roots)
+        e = sp.sympify(e).xreplace(roots)  # safe: a sympy object or number from symresp, never user text
         named = _substitute(e, subs)
         if present and named != e and sp.count_ops(named) <= _PRESENT_MAX_OPS and not roots:
             # The derivation's forms are presented already; tidy again only what the

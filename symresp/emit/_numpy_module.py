@@ -451,7 +451,7 @@ def compile_module(source: str, *, name: str | None = None) -> types.ModuleType:
     linecache.cache[filename] = (len(source), None, source.splitlines(True), filename)
     module = types.ModuleType(modname)
     module.__file__ = filename
-    exec(compile(source, filename, "exec"), module.__dict__)
+    exec(compile(source, filename, "exec"), module.__dict__)  # safe: compiles source symresp generated itself, never user text
     return module
 
 

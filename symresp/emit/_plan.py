@@ -100,7 +100,7 @@ class Plan:
         return tuple(p.name for p in self.parameters)
 
     def is_complex(self, *exprs: sp.Expr) -> bool:
-        return any(sp.sympify(e).has(sp.I) for e in exprs)
+        return any(sp.sympify(e).has(sp.I) for e in exprs)  # safe: derivation values are already sympy objects
 
 
 def _sample(symbols, k: int) -> dict:
@@ -110,7 +110,7 @@ def _sample(symbols, k: int) -> dict:
 
 def is_zero(expr: sp.Expr) -> bool:
     """Exact zero test: expansion, then high-precision evaluation at fixed points."""
-    expr = sp.sympify(expr)
+    expr = sp.sympify(expr)  # safe: derivation values are already sympy objects
     if expr == 0:
         return True
     if not expr.free_symbols:
@@ -129,7 +129,7 @@ def is_zero(expr: sp.Expr) -> bool:
 
 
 def _tidy(expr: sp.Expr, implicit: bool) -> sp.Expr:
-    expr = sp.sympify(expr)
+    expr = sp.sympify(expr)  # safe: derivation values are already sympy objects
     return expr if implicit else clean(expr)
 
 
@@ -172,7 +172,7 @@ def build_plan(d: Derivation) -> Plan:
     for lv in levels:
         symbols |= lv.energy.free_symbols
     for v in (*d.level_weights.values(), *d.expect_A.values(), *d.expect_B.values()):
-        symbols |= sp.sympify(v).free_symbols
+        symbols |= sp.sympify(v).free_symbols  # safe: derivation values are already sympy objects
     original = tuple(sorted(symbols, key=lambda s: s.name))
     for lv in levels:
         if lv.implicit and (lv.energy.has(LevelRoot)
@@ -185,7 +185,7 @@ def build_plan(d: Derivation) -> Plan:
     rename = dict(zip(original, safe))
 
     def sub(e: sp.Expr) -> sp.Expr:
-        return sp.sympify(e).xreplace(rename)
+        return sp.sympify(e).xreplace(rename)  # safe: derivation values are already sympy objects
 
     energies = tuple(sub(lv.energy) for lv in levels)
     implicit = tuple(lv.implicit for lv in levels)

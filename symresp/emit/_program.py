@@ -79,7 +79,7 @@ _EMIN = _s("_emin")
 
 
 def _freeze(e: sp.Expr) -> sp.Expr:
-    return freeze_constants(sp.sympify(e))
+    return freeze_constants(sp.sympify(e))  # safe: a sympy object or number from symresp, never user text
 
 
 # ---------------------------------------------------------------------------------- stage P
@@ -189,7 +189,7 @@ def _static_lines(plan: Plan, kind: str) -> tuple[list, sp.Symbol]:
 
 def _prune(lines: list, outputs: list) -> list:
     """Drop assignments no output depends on (e.g. the partition sum of an empty response)."""
-    need = set().union(*[sp.sympify(o).free_symbols for o in outputs]) if outputs else set()
+    need = set().union(*[sp.sympify(o).free_symbols for o in outputs]) if outputs else set()  # safe: a sympy object or number from symresp, never user text
     kept = []
     for sym, expr in reversed(lines):
         if sym in need:

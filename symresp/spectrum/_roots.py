@@ -37,7 +37,7 @@ class LevelRoot(sp.Function):
     is_real = True
 
     @classmethod
-    def eval(cls, k, *coeffs):
+    def eval(cls, k, *coeffs):  # safe: sympy Function API (automatic evaluation), not Python eval
         if not k.is_Integer:
             return None
         if all(c.is_Rational for c in coeffs):

@@ -248,7 +248,7 @@ class _Evaluator:
 
     def run(self, tree: Node) -> Value:
         try:
-            value = self.eval(tree)
+            value = self.value_of(tree)
         except RecursionError:
             raise self.error(start_of(tree), "the formula is too deeply nested to evaluate") from None
         if isinstance(value, sp.Expr):
@@ -259,7 +259,7 @@ class _Evaluator:
         return value
 
     # ------------------------------------------------------------ dispatch
-    def eval(self, node: Node) -> Value:
+    def value_of(self, node: Node) -> Value:
         if isinstance(node, Num):
             return sp.Rational(node.value.numerator, node.value.denominator)
         if isinstance(node, Name):
@@ -283,7 +283,7 @@ class _Evaluator:
 
     def operand(self, node: Node, where: str) -> sp.Expr | Operator:
         """Evaluate ``node`` and refuse a bare site handle."""
-        v = self.eval(node)
+        v = self.value_of(node)
         if isinstance(v, _HANDLES):
             raise self.handle_error(v, node, where)
         return v
@@ -545,7 +545,7 @@ class _Evaluator:
         self.arity(node, 2, "dot(a, b) with spin sites a and b")
         sites = []
         for arg in node.args:
-            v = self.eval(arg)
+            v = self.value_of(arg)
             if not isinstance(v, SpinSite):
                 raise self.error(start_of(arg), "dot() takes two spin site names, e.g. dot(a, b)")
             sites.append(v)
