@@ -68,13 +68,9 @@ class BlockStructure:
     blocks: tuple[Block, ...]
     quantum_numbers: tuple[QuantumNumber, ...]
 
-    def block_of(self) -> list[int]:
-        """``block_of()[position]`` is the index of the block holding that basis state."""
-        out = [0] * self.basis.dimension
-        for b in self.blocks:
-            for p in b.positions:
-                out[p] = b.index
-        return out
+    def locations(self) -> dict[int, tuple[int, int]]:
+        """Map basis position -> (block index, position inside the block)."""
+        return {p: (b.index, li) for b in self.blocks for li, p in enumerate(b.positions)}
 
     def describe(self) -> str:
         """One line per block size class, e.g. ``12 blocks; sizes 1 x4, 3 x6, 6 x2``."""

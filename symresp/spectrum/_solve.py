@@ -231,10 +231,7 @@ class Spectrum:
 
     def split(self, op: SparseForm) -> dict[tuple[int, int], dict[tuple[int, int], sp.Expr]]:
         """Matrix elements of an operator grouped by (row block, column block) in local indices."""
-        where = {}
-        for b in self.structure.blocks:
-            for li, p in enumerate(b.positions):
-                where[p] = (b.index, li)
+        where = self.structure.locations()
         out: dict[tuple[int, int], dict[tuple[int, int], sp.Expr]] = {}
         for (r, c), v in op.items():
             bi, li = where[r]
@@ -827,12 +824,8 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
         return memo
     structure = decompose(system, clock)
     H = structure.hamiltonian
-    local: dict[int, dict] = {}
-    where = {}
-    for b in structure.blocks:
-        for li, p in enumerate(b.positions):
-            where[p] = (b.index, li)
-        local[b.index] = {}
+    local: dict[int, dict] = {b.index: {} for b in structure.blocks}
+    where = structure.locations()
     for (r, c), v in H.items():
         bi, li = where[r]
         _, lj = where[c]
