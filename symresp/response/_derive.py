@@ -246,10 +246,7 @@ class Derivation:
     def _order(self) -> dict[int, int]:
         memo = self._memo.get("order")
         if memo is None:
-            pt = _sample_point(self.system.parameters)
-            vals = [complex(sp.N(lv.energy.subs(pt), 20)).real for lv in self.levels]
-            ranks = sorted(range(len(vals)), key=lambda i: vals[i])
-            memo = {a: r for r, a in enumerate(ranks)}
+            memo = _level_ranks(self.levels, self.system.parameters)
             self._memo["order"] = memo
         return memo
 
@@ -342,6 +339,13 @@ class Derivation:
         return iso
 
 
+def _level_ranks(levels, params) -> dict[int, int]:
+    """Rank of each level's energy at the presentation sample point (0 = lowest)."""
+    pt = _sample_point(params)
+    vals = [complex(sp.N(lv.energy.subs(pt), 30)).real for lv in levels]
+    return {a: r for r, a in enumerate(sorted(range(len(vals)), key=lambda i: vals[i]))}
+
+
 def _equal_weights(x: sp.Expr, y: sp.Expr) -> bool:
     if x == y:
         return True
@@ -422,7 +426,7 @@ def derive(system: System, A: Operator, B: Operator, *, convention: Convention =
 
     eA = level_expect(spec.expectations(As))
     eB = level_expect(spec.expectations(Bs))
-    pt = _sample_point(system.parameters)
-    vals = [complex(sp.N(lv.energy.subs(pt), 30)).real for lv in levels]
-    ref = min(range(len(levels)), key=lambda i: vals[i])
-    return Derivation(system, A, B, convention, spec, tuple(levels), ref, lw, eA, eB)
+    ranks = _level_ranks(levels, system.parameters)
+    ref = min(ranks, key=ranks.__getitem__)
+    return Derivation(system, A, B, convention, spec, tuple(levels), ref, lw, eA, eB,
+                      {"order": ranks})

@@ -125,10 +125,6 @@ class Factor:
         """Degree of f."""
         return len(self.coeffs) - 1
 
-    def polynomial(self, var: sp.Symbol) -> sp.Expr:
-        """f as an expression in ``var``."""
-        return sum((c * var ** (self.degree - i) for i, c in enumerate(self.coeffs)), sp.Integer(0))
-
 
 @dataclass(frozen=True, slots=True)
 class Part:
@@ -219,15 +215,12 @@ class Spectrum:
     structure: BlockStructure
     solutions: tuple[BlockSolution, ...]
     parts: tuple[Part, ...]
+    index: dict[tuple[int, int, int], int]   # (block, factor, root) -> position in parts
 
     @property
     def is_closed_form(self) -> bool:
         """False when some energy is an implicit root (semi-closed form)."""
         return not any(p.implicit for p in self.parts)
-
-    def parts_of(self, block: int) -> list[int]:
-        """Indices of the parts of ``block``."""
-        return [i for i, p in enumerate(self.parts) if p.block == block]
 
     def split(self, op: SparseForm) -> dict[tuple[int, int], dict[tuple[int, int], sp.Expr]]:
         """Matrix elements of an operator grouped by (row block, column block) in local indices."""
@@ -257,8 +250,8 @@ class Spectrum:
             si, sj = self.solutions[bi], self.solutions[bj]
             for (fa, ra, fb, rb), w in _pair_weights(si, sj, a_blk, b_blk).items():
                 if w != 0:
-                    pa = self._part_index(bi, fa, ra)
-                    pb = self._part_index(bj, fb, rb)
+                    pa = self.index[(bi, fa, ra)]
+                    pb = self.index[(bj, fb, rb)]
                     out[(pa, pb)] = w
         return out
 
@@ -270,11 +263,11 @@ class Spectrum:
             if bi != bj:
                 continue
             s = self.solutions[bi]
-            n = s.block.size
+            # Tr(M^k A) depends on the block only: computed once for all its roots.
+            t = [_trace_q(s.powers[k], a_blk) for k in range(s.degree)] if s.kind == "scaled" else []
             for fa, f in enumerate(s.factors):
                 for ra in range(f.degree):
                     if s.kind == "scaled":
-                        t = [_trace_q(s.powers[k], a_blk, n) for k in range(s.degree)]
                         red = s.reducers[fa]
                         coeff = [sum((_q(red[k, p]) * t[k] for k in range(s.degree)), sp.Integer(0))
                                  for p in range(f.degree)]
@@ -286,23 +279,8 @@ class Spectrum:
                     else:
                         val = _domain_expectation(s, fa, ra, a_blk)
                     if val != 0:
-                        out[self._part_index(bi, fa, ra)] = val
+                        out[self.index[(bi, fa, ra)]] = val
         return out
-
-    def _part_index(self, block: int, factor: int, root: int) -> int:
-        idx = self._index_map()
-        return idx[(block, factor, root)]
-
-    def _index_map(self) -> dict[tuple[int, int, int], int]:
-        m = _INDEX_CACHE.get(id(self))
-        if m is None or m[0] is not self:
-            m = (self, {(p.block, p.factor, p.root): i for i, p in enumerate(self.parts)})
-            _INDEX_CACHE[id(self)] = m
-        return m[1]
-
-
-# id-keyed cache of part indices; entries hold a reference to their Spectrum, so ids never clash.
-_INDEX_CACHE: dict[int, tuple[Spectrum, dict]] = {}
 
 
 #: Digits used to recognise weights that are exactly zero among implicit (algebraic) roots.
@@ -444,8 +422,8 @@ def _domain_pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_bl
     return out
 
 
-def _trace_q(P: flint.fmpq_mat, a_blk: dict, n: int) -> sp.Rational:
-    # Tr(P A) = sum_{ij} P[j, i] A[i, j] ; A entries may be symbolic -> sympy sum
+def _trace_q(P: flint.fmpq_mat, a_blk: dict) -> sp.Expr:
+    """Tr(P A) = sum_ij P[j, i] A[i, j] for a rational P and a sparse (possibly symbolic) A."""
     return sum((_q(P[j, i]) * v for (i, j), v in a_blk.items()), sp.Integer(0))
 
 
@@ -859,6 +837,7 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
                 E = s.shift + s.scale * r
                 E = sp.expand(E) if not f.implicit else E
                 parts.append(Part(s.block.index, fi, ri, E, f.multiplicity, f.implicit))
-    out = Spectrum(structure, tuple(sols), tuple(parts))
+    index = {(p.block, p.factor, p.root): i for i, p in enumerate(parts)}
+    out = Spectrum(structure, tuple(sols), tuple(parts), index)
     system._memo["spectrum"] = out
     return out
