@@ -154,6 +154,7 @@ class BlockSolution:
     gauge: tuple | None = None        # diagonal rescaling D (block matrix is D^-1 H D), or None
     domain: object = None             # symbolic: the sympy domain K of the block entries
     kalphas: tuple = ()               # symbolic: per factor, per root, tuple of Surd (None if implicit)
+    alpha_dens: tuple = ()            # symbolic: per factor, per root, denominator of alphas (1 if explicit)
 
     def domain_alpha(self, factor: int, root: int) -> tuple:
         """alpha_k(lambda) as Surds over :meth:`field` (explicit roots only)."""
@@ -186,10 +187,14 @@ class BlockSolution:
         n = P.nrows()
         return DomainMatrix([[sp.QQ.convert(_q(P[i, j])) for j in range(n)] for i in range(n)], (n, n), sp.QQ)
 
-    def alpha(self, factor: int, root: int) -> tuple[sp.Expr, ...]:
-        """:math:`\\alpha_k(\\lambda)` for k < D as sympy expressions."""
+    def alpha(self, factor: int, root: int) -> tuple[tuple[sp.Expr, ...], sp.Expr]:
+        """:math:`\\alpha_k(\\lambda)` for k < D as (numerators, common denominator).
+
+        The denominator is 1 except for implicit roots of symbolic blocks, where it is
+        :math:`m'(\\lambda) = \\prod_{\\mu \\ne \\lambda} (\\lambda - \\mu)`.
+        """
         if self.kind == "symbolic":
-            return self.alphas[factor][root]
+            return self.alphas[factor][root], self.alpha_dens[factor][root]
         red = self.reducers[factor]
         r = self.factors[factor].roots[root]
         deg = self.factors[factor].degree
@@ -197,7 +202,7 @@ class BlockSolution:
         return tuple(
             tidy(sum((_q(red[k, p]) * r**p for p in range(deg)), sp.Integer(0)))
             for k in range(self.degree)
-        )
+        ), sp.Integer(1)
 
     def sympy_power(self, k: int) -> sp.Matrix:
         """M^k as a sympy Matrix."""
@@ -273,9 +278,9 @@ class Spectrum:
                                  for p in range(f.degree)]
                         val = _eval_root_poly(coeff, f.roots[ra])
                     elif f.implicit:
-                        al = s.alpha(fa, ra)
+                        al, den = s.alpha(fa, ra)
                         val = _tidy_implicit(sum((al[k] * _trace_sym(s.sympy_power(k), a_blk)
-                                                  for k in range(s.degree)), sp.Integer(0)))
+                                                  for k in range(s.degree)), sp.Integer(0)), den)
                     else:
                         val = _domain_expectation(s, fa, ra, a_blk)
                     if val != 0:
@@ -322,15 +327,18 @@ def _root_value(x: sp.Expr):
 _ROOT_VALUES: dict[sp.Expr, object] = {}
 
 
-def _tidy_implicit(w: sp.Expr) -> sp.Expr:
-    """A weight that is a polynomial in implicit roots.
+def _tidy_implicit(w: sp.Expr, den: sp.Expr = sp.Integer(1)) -> sp.Expr:
+    """A weight ``w / den`` with ``w`` a polynomial in implicit roots.
 
     Numeric weights (roots of rational polynomials only) are tested for an exact zero at
     ZERO_TEST_DIGITS digits and otherwise kept as they are (expanding products of root
-    polynomials costs far more than evaluating them); parametric ones are expanded.
+    polynomials costs far more than evaluating them); parametric numerators are expanded and
+    the denominator (a product of root differences) is kept as a product.
     """
-    if w.free_symbols:
-        return sp.expand(w)
+    if w.free_symbols or den.free_symbols:
+        w = sp.expand(w)
+        return sp.Integer(0) if w == 0 else w / den
+    w = w / den
     return sp.Integer(0) if is_zero_number(w) else w
 
 
@@ -508,13 +516,16 @@ def _pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
           for l in range(sj.degree)] for k in range(si.degree)]
     for fa, fA in enumerate(si.factors):
         for ra in range(fA.degree):
-            al = si.alpha(fa, ra)
+            al, den_a = si.alpha(fa, ra)
             row = [sum((al[k] * T[k][l] for k in range(si.degree)), sp.Integer(0)) for l in range(sj.degree)]
             for fb, fB in enumerate(sj.factors):
                 for rb in range(fB.degree):
-                    be = sj.alpha(fb, rb)
+                    be, den_b = sj.alpha(fb, rb)
                     w = sum((row[l] * be[l] for l in range(sj.degree)), sp.Integer(0))
-                    w = _tidy_implicit(w) if (fA.implicit or fB.implicit) else clean(w)
+                    if fA.implicit or fB.implicit:
+                        w = _tidy_implicit(w, den_a * den_b)
+                    else:
+                        w = clean(w / (den_a * den_b))
                     if w != 0:
                         out[(fa, ra, fb, rb)] = w
     return out
@@ -728,14 +739,21 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
     D = len(mcoeffs) - 1
     mc = list(reversed(mcoeffs))  # low -> high
     dmc = [mc[j] * K.convert(j) for j in range(1, D + 1)]  # m'(x), low -> high
-    kalphas, alphas = [], []
+    kalphas, alphas, alpha_dens = [], [], []
+    all_roots = [r for f in factors for r in f.roots]
     for f, lams in zip(factors, kroots):
         if lams is None:
-            fP = sp.Poly.from_list([K.from_sympy(c) for c in f.coeffs], _x, domain=K)
-            mQ = sp.Poly.from_list(mcoeffs, _x, domain=K)
-            inv = mQ.diff(_x).rem(fP).invert(fP)
-            red = [(sp.Poly.from_list(mc[k + 1:][::-1], _x, domain=K) * inv).rem(fP) for k in range(D)]
-            alphas.append(tuple(tuple(sp.expand(r.as_expr().subs(_x, lam)) for r in red) for lam in f.roots))
+            # Unreduced Lagrange-Sylvester form alpha_k = h_k(lambda) / m'(lambda), with
+            # m'(lambda) = prod (lambda - mu) over the other roots of the minimal polynomial.
+            # Reducing modulo f instead inverts m' in K[x]/f, whose coefficients carry the
+            # discriminant of f: thousands of operations per weight for a 3 x 3 block.
+            hs = [sp.Poly.from_list(mc[k + 1:][::-1], _x, domain=K).as_expr() for k in range(D)]
+            nums, dens = [], []
+            for lam in f.roots:
+                nums.append(tuple(sp.expand(h.subs(_x, lam)) for h in hs))
+                dens.append(sp.Mul(*[lam - mu for mu in all_roots if mu != lam]))
+            alphas.append(tuple(nums))
+            alpha_dens.append(tuple(dens))
             kalphas.append(None)
             continue
         per_root, per_root_sym = [], []
@@ -757,11 +775,13 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
             per_root_sym.append(tuple(x.to_sympy() for x in al))
         kalphas.append(tuple(per_root))
         alphas.append(tuple(per_root_sym))
+        alpha_dens.append(tuple(sp.Integer(1) for _ in lams))
     powers = [DomainMatrix.eye(n, K)]
     for _ in range(1, D):
         powers.append(powers[-1] * M)
     return BlockSolution(block, "symbolic", sp.Integer(0), sp.Integer(1), tuple(factors), D,
-                         tuple(powers), (), tuple(alphas), domain=K, kalphas=tuple(kalphas))
+                         tuple(powers), (), tuple(alphas), domain=K, kalphas=tuple(kalphas),
+                         alpha_dens=tuple(alpha_dens))
 
 
 def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int = 12,
