@@ -18,7 +18,7 @@ from __future__ import annotations
 import sympy as sp
 
 __all__ = ["Boltzmann", "ExpDiv", "ExpDiv2", "Keep", "LevelMin", "AtMin", "DegeneracyTol",
-           "Causal", "CACHE_ONLY"]
+           "Causal", "RealRoots", "RootPick", "CACHE_ONLY"]
 
 
 class Boltzmann(sp.Function):
@@ -115,5 +115,21 @@ class DegeneracyTol(sp.Function):
 
 class Causal(sp.Function):
     """``Causal(t, value)``: value for t >= 0, zero before the perturbation (retarded chi(t))."""
+
+    nargs = 2
+
+
+class RealRoots(sp.Function):
+    r"""``RealRoots(c_0, ..., c_n)``: the real roots, ascending, of :math:`\sum_i c_i E^{n-i}`.
+
+    The characteristic factor of a semi-closed block (all its roots are real, the block being
+    Hermitian), solved numerically at every evaluation point; the value is a tuple, read with
+    :class:`RootPick`. Only stage P (parameters) holds it, so it needs no derivative: the
+    Jacobian uses :math:`\partial\lambda/\partial\theta = -f_\theta(\lambda)/f_E(\lambda)`.
+    """
+
+
+class RootPick(sp.Function):
+    """``RootPick(roots, k)``: the k-th smallest entry of a :class:`RealRoots` value."""
 
     nargs = 2

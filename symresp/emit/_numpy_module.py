@@ -29,6 +29,7 @@ from ._program import (Program, energies_program, jacobian_program, omega_progra
                        params_program, poles_program, spectral_program, static_program,
                        time_program)
 from ._runtime import RUNTIME
+from ._runtime_roots import ROOTS_RUNTIME
 
 __all__ = ["numpy_module_source", "compile_module", "numpy_functions", "symresp_version"]
 
@@ -328,7 +329,8 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     InputError
         If ``derivation`` is not a Derivation or ``name`` not a string.
     ClosedFormError
-        If a level is an implicit root with parameter-dependent coefficients.
+        If a level is an implicit root of a parameter-dependent factor of degree other than
+        3 (cubic factors of semi-closed blocks are solved numerically at every point).
 
     Examples
     --------
@@ -386,6 +388,8 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
         ")",
     ]
     src += RUNTIME.splitlines()
+    if plan.roots:
+        src += ROOTS_RUNTIME.splitlines()
     src += ["", f"_STATIC = numpy.dtype({static_dtype})", f"_WAVE = numpy.dtype({wave_dtype})"]
     src += ["", "", "# " + "-" * 90, "# Stage P: parameters only (energies, spacings, weights).",
             "# " + "-" * 90, "", ""]

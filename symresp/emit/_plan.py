@@ -43,7 +43,7 @@ from ..errors import ClosedFormError, InputError
 from ..response import Derivation
 from ..spectrum import LevelRoot, clean
 
-__all__ = ["Plan", "Pair", "Group", "build_plan", "fingerprint", "is_zero"]
+__all__ = ["Plan", "Pair", "Group", "RootSet", "build_plan", "fingerprint", "is_zero"]
 
 #: Names a parameter may not take in the generated code (independent variables, modules,
 #: keywords of the generated functions).
@@ -53,6 +53,9 @@ _TAKEN = frozenset({"T", "omega", "t", "eta", "kind", "shape", "numpy", "math", 
 _KEY_DIGITS = 25
 #: |value| below which a high-precision evaluation counts as an exact zero.
 _ZERO_CUTOFF = sp.Float("1e-40")
+#: Degree of the parameter-dependent characteristic factors the evaluators solve numerically
+#: (the engine keeps implicit roots of symbolic blocks for degree 3 only).
+_ROOT_DEGREE = 3
 
 
 @dataclass(frozen=True, slots=True)
@@ -75,6 +78,31 @@ class Group:
 
 
 @dataclass(frozen=True, slots=True)
+class RootSet:
+    r"""The real roots of one parameter-dependent characteristic factor (a semi-closed block).
+
+    ``coeffs`` (highest power first, in the code-safe parameters) define
+    :math:`f(E) = \sum_i c_i E^{n-i}`; ``holder`` names the tuple of its roots in the code and
+    ``picks`` the roots the response uses, as (symbol, k) with k the ascending position.
+    """
+
+    holder: sp.Symbol
+    coeffs: tuple[sp.Expr, ...]
+    picks: tuple[tuple[sp.Symbol, int], ...]
+
+    def derivative(self, root: sp.Symbol, theta: sp.Symbol) -> sp.Expr:
+        r""":math:`\partial\lambda/\partial\theta = -f_\theta(\lambda)/f_E(\lambda)` at a root."""
+        n = len(self.coeffs) - 1
+        f_theta = sum((sp.diff(c, theta) * root ** (n - i) for i, c in enumerate(self.coeffs)),
+                      sp.Integer(0))
+        if f_theta == 0:
+            return sp.Integer(0)
+        f_E = sum(((n - i) * c * root ** (n - i - 1) for i, c in enumerate(self.coeffs[:-1])),
+                  sp.Integer(0))
+        return -f_theta / f_E
+
+
+@dataclass(frozen=True, slots=True)
 class Plan:
     """Everything the code generator reads from a derivation (see the module docstring)."""
 
@@ -90,6 +118,7 @@ class Plan:
     sign: int                                # convention: perturbation sign
     frequency_sign: int                      # convention: Fourier sign
     prescription: int                        # +1 retarded, -1 advanced
+    roots: tuple[RootSet, ...] = ()          # semi-closed blocks, solved numerically per point
 
     @property
     def has_covariance(self) -> bool:
@@ -175,12 +204,13 @@ def build_plan(d: Derivation) -> Plan:
         symbols |= sp.sympify(v).free_symbols  # safe: derivation values are already sympy objects
     original = tuple(sorted(symbols, key=lambda s: s.name))
     for lv in levels:
-        if lv.implicit and (lv.energy.has(LevelRoot)
-                            or any(r.free_symbols for r in lv.energy.atoms(sp.CRootOf))):
-            raise ClosedFormError(f"emit: the level {lv.energy} is a root of a polynomial with "
-                                  "parameter-dependent coefficients (semi-closed form); emitted "
-                                  "evaluators for such blocks are not available yet: give numeric "
-                                  "values to all but one parameter of the block")
+        for r in lv.energy.atoms(LevelRoot):
+            if len(r.args) != 1 + 1 + _ROOT_DEGREE:
+                raise ClosedFormError(
+                    f"emit: the level {lv.energy} is a root of a degree-{len(r.args) - 2} "
+                    f"polynomial with parameter-dependent coefficients; emitted evaluators solve "
+                    f"such factors numerically for degree {_ROOT_DEGREE} only: give numeric values "
+                    f"to more parameters of the block")
     safe = _safe_names(original)
     rename = dict(zip(original, safe))
 
@@ -220,9 +250,39 @@ def build_plan(d: Derivation) -> Plan:
         mean_b.append(_tidy(eb / g, implicit[a]))
 
     conv = d.convention
-    return Plan(safe, original, energies, tuple(lv.degeneracy for lv in levels), tuple(pairs),
-                groups, tuple(fluct), tuple(mean_a), tuple(mean_b), conv.sign,
-                conv.frequency_sign, 1 if conv.prescription == "retarded" else -1)
+    # Semi-closed blocks: each implicit root becomes a symbol computed numerically per point.
+    roots, rmap = _root_sets([*energies, *(e for p in pairs for e in (p.w, p.S, p.D)),
+                              *fluct, *mean_a, *mean_b])
+
+    def r(e: sp.Expr) -> sp.Expr:
+        return e.xreplace(rmap) if rmap else e
+
+    pairs = [Pair(p.a, p.b, r(p.w), r(p.S), r(p.D)) for p in pairs]
+    return Plan(safe, original, tuple(r(e) for e in energies),
+                tuple(lv.degeneracy for lv in levels), tuple(pairs), groups,
+                tuple(r(e) for e in fluct), tuple(r(e) for e in mean_a),
+                tuple(r(e) for e in mean_b), conv.sign, conv.frequency_sign,
+                1 if conv.prescription == "retarded" else -1, roots)
+
+
+def _root_sets(exprs: list[sp.Expr]) -> tuple[tuple[RootSet, ...], dict]:
+    """Symbols for the implicit roots in ``exprs``, grouped by their defining polynomial."""
+    atoms: set = set()
+    for e in exprs:
+        atoms |= sp.sympify(e).atoms(LevelRoot)  # safe: derivation values are already sympy objects
+    by_poly: dict[tuple, list] = {}
+    for a in atoms:
+        by_poly.setdefault(tuple(a.args[1:]), []).append(a)
+    sets, rmap = [], {}
+    for g, coeffs in enumerate(sorted(by_poly, key=sp.default_sort_key)):
+        picks = []
+        for a in sorted(by_poly[coeffs], key=lambda a: int(a.args[0])):
+            k = int(a.args[0])
+            sym = sp.Symbol(f"_lam{g}_{k}", real=True)
+            rmap[a] = sym
+            picks.append((sym, k))
+        sets.append(RootSet(sp.Symbol(f"_roots{g}"), coeffs, tuple(picks)))
+    return tuple(sets), rmap
 
 
 def _group_pairs(pairs: list[Pair], symbols: tuple[sp.Symbol, ...]) -> tuple[Group, ...]:

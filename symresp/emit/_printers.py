@@ -22,7 +22,8 @@ import sympy as sp
 from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.pycode import PythonCodePrinter
 
-from ._functions import AtMin, Boltzmann, Causal, DegeneracyTol, ExpDiv, ExpDiv2, Keep, LevelMin
+from ._functions import (AtMin, Boltzmann, Causal, DegeneracyTol, ExpDiv, ExpDiv2, Keep, LevelMin,
+                         RealRoots, RootPick)
 
 __all__ = ["ArrayPrinter", "ScalarPrinter", "freeze_constants", "DIGITS"]
 
@@ -98,6 +99,13 @@ class _ProgramPrinting:
 
     def _print_Causal(self, expr: Causal) -> str:
         return self._helper("causal", *expr.args)
+
+    def _print_RealRoots(self, expr: RealRoots) -> str:
+        return self._helper("realroots", *expr.args)
+
+    def _print_RootPick(self, expr: RootPick) -> str:
+        roots, k = expr.args
+        return f"{self._print(roots)}[{int(k)}]"
 
     def _print_ComplexRootOf(self, expr: sp.Expr) -> str:
         # An implicit root has rational coefficients: an exact constant, printed as its value.

@@ -24,7 +24,8 @@ from dataclasses import dataclass
 
 import sympy as sp
 
-from ._functions import AtMin, Boltzmann, Causal, DegeneracyTol, ExpDiv, Keep, LevelMin
+from ._functions import (AtMin, Boltzmann, Causal, DegeneracyTol, ExpDiv, Keep, LevelMin,
+                         RealRoots, RootPick)
 from ._plan import Plan
 from ._printers import freeze_constants
 
@@ -83,6 +84,39 @@ def _freeze(e: sp.Expr) -> sp.Expr:
 
 
 # ---------------------------------------------------------------------------------- stage P
+def _root_lines(plan: Plan) -> list[tuple[sp.Symbol, sp.Expr]]:
+    """The roots of each semi-closed block's characteristic factor, solved at the point."""
+    lines: list[tuple[sp.Symbol, sp.Expr]] = []
+    for rs in plan.roots:
+        lines.append((rs.holder, RealRoots(*[_freeze(c) for c in rs.coeffs])))
+        lines += [(sym, RootPick(rs.holder, k)) for sym, k in rs.picks]
+    return lines
+
+
+def _root_derivative_lines(plan: Plan) -> tuple[list, dict]:
+    """d lambda / d theta_i per root (implicit differentiation), and the map to their symbols."""
+    lines, out = [], {}
+    for i, th in enumerate(plan.parameters):
+        for rs in plan.roots:
+            for sym, _ in rs.picks:
+                d = rs.derivative(sym, th)
+                if d != 0:
+                    dsym = _dv(sym, i)
+                    lines.append((dsym, _freeze(d)))
+                    out[(sym, i)] = dsym
+    return lines, out
+
+
+def _total_derivative(expr: sp.Expr, i: int, th: sp.Symbol, plan: Plan, droot: dict) -> sp.Expr:
+    """d expr / d theta_i, the implicit roots in ``expr`` depending on theta_i too."""
+    d = sp.diff(expr, th)
+    for rs in plan.roots:
+        for sym, _ in rs.picks:
+            if (sym, i) in droot and expr.has(sym):
+                d += sp.diff(expr, sym) * droot[(sym, i)]
+    return d
+
+
 def params_program(plan: Plan, kind: str) -> Program:
     """Stage P for ``kind`` in {"isothermal", "isolated", "jacobian", "dynamic"}.
 
@@ -102,18 +136,21 @@ def params_program(plan: Plan, kind: str) -> Program:
             targets += [(_al(a), v) for a, v in enumerate(plan.mean_a)]
             targets += [(_be(a), v) for a, v in enumerate(plan.mean_b)]
     derivs: list[tuple[sp.Symbol, sp.Expr]] = []
+    head = _root_lines(plan)
     if kind == "jacobian":
+        dlines, droot = _root_derivative_lines(plan)
+        head += dlines
         for i, th in enumerate(theta):
             for sym, expr in targets:
                 if sym.name.startswith("_w"):
                     continue              # spacings are cached values (see ExpDiv)
-                d = sp.diff(expr, th)
+                d = _total_derivative(expr, i, th, plan, droot)
                 if d != 0:
                     derivs.append((_dv(sym, i), d))
     all_targets = targets + derivs
     exprs = [_freeze(e) for _, e in all_targets]
     repl, reduced = sp.cse(exprs, symbols=sp.numbered_symbols("_q"), order="canonical")
-    lines = [(s, e) for s, e in repl] + [(sym, e) for (sym, _), e in zip(all_targets, reduced)]
+    lines = head + [(s, e) for s, e in repl] + [(sym, e) for (sym, _), e in zip(all_targets, reduced)]
     energies = [_E(a) for a in range(L)]
     lines.append((_EMIN, LevelMin(*energies)))
     lines += [(_c(a), _E(a) - _EMIN) for a in range(L)]
@@ -139,7 +176,7 @@ def energies_program(plan: Plan) -> Program:
     """Level energies only (for ``energies(*params)``)."""
     exprs = [_freeze(e) for e in plan.energies]
     repl, reduced = sp.cse(exprs, symbols=sp.numbered_symbols("_q"), order="canonical")
-    lines = list(repl) + [(_E(a), e) for a, e in enumerate(reduced)]
+    lines = _root_lines(plan) + list(repl) + [(_E(a), e) for a, e in enumerate(reduced)]
     return Program("_energies", tuple(p.name for p in plan.parameters), (), tuple(lines),
                    tuple(_E(a) for a in range(len(plan.energies))))
 

@@ -25,6 +25,7 @@ h = sp.Symbol("h", real=True)
 D = sp.Symbol("D", real=True)
 Delta = sp.Symbol("Delta", positive=True)
 E_r = sp.Symbol("E_r", real=True)          # rhombic zero-field splitting
+hx = sp.Symbol("hx", real=True)            # transverse field
 
 
 @dataclass(frozen=True)
@@ -117,6 +118,20 @@ def _tilted_pair_matrices(*, J: float):
     return H, Sz, Sz
 
 
+def _tilted_field_symbolic():
+    # A spin 1 with axial anisotropy in a field with z and x components: the whole 3 x 3 matrix
+    # mixes three parameters and its characteristic polynomial is an irreducible cubic, so the
+    # levels are implicit roots with parameter-dependent coefficients (semi-closed form), solved
+    # numerically at every point by the evaluator.
+    s = sr.spin("s", 1)
+    return sr.Model(D * s.z**2 + h * s.z + hx * s.x, name="tilted field").response(s.x)
+
+
+def _tilted_field_matrices(*, D: float, h: float, hx: float):
+    sx, _, sz = spin_matrices(1)
+    return D * sz @ sz + h * sz + hx * sx, sx, sx
+
+
 CASES = {
     "dimer_zz": Case("dimer_zz", lambda: _ring_symbolic(2, "zz"),
                      functools.partial(_ring_matrices, 2, "zz"), "J"),
@@ -140,6 +155,7 @@ CASES = {
     "two_level": Case("two_level", _two_level_symbolic, _two_level_matrices, "Delta",
                       positive=("Delta",)),
     "tilted_pair": Case("tilted_pair", _tilted_pair_symbolic, _tilted_pair_matrices, "J"),
+    "tilted_field": Case("tilted_field", _tilted_field_symbolic, _tilted_field_matrices, "D"),
 }
 
 

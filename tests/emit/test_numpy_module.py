@@ -245,7 +245,8 @@ def test_low_temperature_and_degenerate_points_are_covered(sympy_free_run):
 
 # ------------------------------------------------------------------------------ Jacobian
 @pytest.mark.parametrize("name", ["dimer_zz", "dimer_xx", "triangle_s0x", "ring4_s0z",
-                                  "spin1_xx", "rhombic", "two_level", "tilted_pair"])
+                                  "spin1_xx", "rhombic", "two_level", "tilted_pair",
+                                  "tilted_field"])
 def test_jacobian_agrees_with_finite_differences(name):
     case = CASES[name]
     mod = module(name)
