@@ -33,6 +33,7 @@ from ..conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from ..errors import InputError
 from ..models import Budget, System
 from ..spectrum import LevelRoot, Spectrum, clean, is_zero_number, solve
+from ._present import boltzmann_form, merge_exponentials
 
 __all__ = ["Level", "Transition", "Derivation", "derive", "StaticKind", "present"]
 
@@ -97,8 +98,15 @@ def present(expr: sp.Expr, *, max_ops: int = 400) -> sp.Expr:
         return expr
     e = sp.together(expr)
     n, d = sp.fraction(e)
-    n = sp.factor(sp.powsimp(sp.expand(n), combine="exp"))
-    d = sp.factor(sp.powsimp(sp.expand(d), combine="exp"))
+    n = sp.powsimp(sp.expand(n), combine="exp")
+    d = sp.powsimp(sp.expand(d), combine="exp")
+    if len(d.atoms(sp.exp)) != 1:
+        # Several Boltzmann factors (fields, several couplings): factored in the exponentials,
+        # relative to the lowest level, with cosh/sinh for the +-pairs of a field.
+        nice = boltzmann_form(n / d) if (n / d).has(sp.exp) else None
+        if nice is not None:
+            return nice
+    n, d = sp.factor(n), sp.factor(d)
     hyper = _hyperbolic_form(n, d) if len(d.atoms(sp.exp)) == 1 else None
     return hyper if hyper is not None else sp.powsimp(n / d, combine="exp")
 
@@ -135,8 +143,16 @@ class Derivation:
 
     def partition(self) -> sp.Expr:
         r"""Partition function :math:`Z = \sum_a d_a e^{-\beta E_a}`."""
+        memo = self._memo.get("partition")
+        if memo is not None:
+            return memo
         Eref = self.levels[self.reference].energy
-        return sp.exp(-beta * Eref) * self.reduced_partition()
+        Zr = self.reduced_partition()
+        nice = None if Zr.has(sp.CRootOf, LevelRoot) else boltzmann_form(Zr)
+        out = sp.exp(-beta * Eref) * (Zr if nice is None else nice)
+        out = out if nice is None else merge_exponentials(out)
+        self._memo["partition"] = out
+        return out
 
     def population(self, a: int) -> sp.Expr:
         r"""Population per state :math:`p_a = x_a / Z'` of level a."""

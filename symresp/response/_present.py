@@ -1,0 +1,180 @@
+r"""Presentable forms of thermal expressions (layer: response).
+
+Owns :func:`boltzmann_form`: a sum of exponentials :math:`e^{-\beta(E_a - E_{\rm ref})}` with
+exact coefficients, written the way physicists print it. Imports sympy only.
+
+Method
+------
+1. Every exponent is a sum :math:`\sum_j c_j g_j` of rational multiples of a few *generators*
+   :math:`g_j` (``beta*J``, ``beta*h``, ``beta*sqrt(J**2 + h**2)``, ...). A generator that is
+   positive under the symbols' assumptions gets a decaying variable
+   :math:`u_j = e^{-g_j/L_j}`; any other (a field, a detuning) a symmetric one
+   :math:`u_j = e^{g_j/L_j}` (:math:`L_j` clears the denominators of the :math:`c_j`).
+2. The expression becomes a rational function of the :math:`u_j`; numerator and denominator
+   are factored as polynomials (``factor_list``): this finds, e.g., that the denominator of an
+   isothermal susceptibility is the square of the reduced partition function.
+3. Each factor is shifted by a power of the :math:`u_j`: decaying variables so that the
+   lowest power is :math:`u^0` (Boltzmann factors :math:`\le 1` relative to the lowest level),
+   symmetric ones so that the powers are centred; then the terms :math:`c\,u^k \pm c\,u^{-k}`
+   of the symmetric variables become :math:`2c\cosh(k g)` and :math:`2c\sinh(k g)`, and
+   :math:`\sinh(x)\cosh(x)` becomes :math:`\sinh(2x)/2`.
+
+Only targeted polynomial operations are used (no ``simplify``). When an exponent is not linear
+in generators the expression is returned unchanged (``None``), and the caller falls back.
+"""
+
+from __future__ import annotations
+
+from functools import reduce
+
+import sympy as sp
+
+__all__ = ["boltzmann_form", "merge_exponentials"]
+
+
+def _generators(expr: sp.Expr) -> dict[sp.Expr, tuple[sp.Dummy, sp.Rational, bool]] | None:
+    """generator g -> (u, s, decaying) with exp(c g) = u**(c/s); None if not of that shape."""
+    coeffs: dict[sp.Expr, set] = {}
+    for a in expr.atoms(sp.exp):
+        for term in sp.Add.make_args(sp.expand(a.args[0])):
+            c, rest = term.as_coeff_Mul()
+            if not c.is_Rational or rest.is_number or rest.has(sp.exp):
+                return None
+            coeffs.setdefault(rest, set()).add(c)
+    symbols = sorted(expr.free_symbols, key=lambda x: x.name)
+    point = {x: (sp.Rational(2, 3) + sp.Rational(k, 7)) if x.is_positive else
+             (sp.Rational(1, 10) + sp.Rational(k, 37)) for k, x in enumerate(symbols)}
+    gens = {}
+    for k, rest in enumerate(sorted(coeffs, key=sp.default_sort_key)):
+        L = reduce(sp.ilcm, [c.q for c in coeffs[rest]], 1)
+        decaying = bool(rest.is_positive)
+        # Oriented so that the variable is a decaying Boltzmann factor at a generic point.
+        sign = -1 if decaying or sp.N(rest.subs(point)) > 0 else 1
+        gens[rest] = (sp.Dummy(f"u{k}", positive=True), sp.Rational(sign, L), decaying)
+    return gens
+
+
+def _substitute(expr: sp.Expr, gens: dict) -> sp.Expr:
+    def monomial(a: sp.exp) -> sp.Expr:
+        out = sp.Integer(1)
+        for term in sp.Add.make_args(sp.expand(a.args[0])):
+            c, rest = term.as_coeff_Mul()
+            u, s, _ = gens[rest]
+            out *= u ** (c / s)
+        return out
+    return expr.xreplace({a: monomial(a) for a in expr.atoms(sp.exp)})
+
+
+def _exponent(powers, items) -> sp.Expr:
+    return sp.Add(*[k * s * rest for k, (rest, (_, s, _d)) in zip(powers, items)])
+
+
+def _is_even_or_odd(terms, j: int) -> bool:
+    """Whether a polynomial is even or odd under u_j -> 1/u_j about its centre (a field
+    reversal), so that centring it gives pure cosh or pure sinh terms in that variable."""
+    ks = [m[j] for m, _ in terms]
+    top = min(ks) + max(ks)
+    table = {m: c for m, c in terms}
+    for parity in (1, -1):
+        if all(sp.expand(table.get(m[:j] + (top - m[j],) + m[j + 1:], 0) - parity * c) == 0
+               for m, c in terms):
+            return True
+    return False
+
+
+def _factor_form(F: sp.Expr, items: list, centre: bool = True) -> tuple[sp.Expr, sp.Expr]:
+    """(prefactor e^{...}, body) with F = prefactor * body in Boltzmann / hyperbolic form.
+
+    Sign-free generators are centred (for cosh/sinh) only where that produces a +- pair;
+    otherwise every variable is shifted to start at power 0.
+    """
+    us = [u for _, (u, _s, _d) in items]
+    terms = sp.Poly(F, *us).terms()
+    symmetric = [j for j, (_, (_u, _s, d)) in enumerate(items)
+                 if not d and _is_even_or_odd(terms, j)] if centre else []
+    shift = []
+    for j, (_, (_u, _s, decaying)) in enumerate(items):
+        ks = [m[j] for m, _ in terms]
+        mid = j in symmetric
+        shift.append(sp.Rational(min(ks) + max(ks), 2) if mid else sp.Integer(min(ks)))
+    table = {tuple(sp.Integer(k) - s for k, s in zip(m, shift)): c for m, c in terms}
+    done: set = set()
+    out = []
+    for mon, c in table.items():
+        if mon in done:
+            continue
+        done.add(mon)
+        mirror = tuple(-k if j in symmetric else k for j, k in enumerate(mon))
+        sym_part = tuple(k if j in symmetric else 0 for j, k in enumerate(mon))
+        rest = tuple(0 if j in symmetric else k for j, k in enumerate(mon))
+        if mirror != mon and mirror in table and mirror not in done:
+            c2 = table[mirror]
+            x = _exponent(sym_part, items)
+            if sp.expand(c - c2) == 0:
+                out.append(2 * c * sp.exp(_exponent(rest, items)) * sp.cosh(x))
+                done.add(mirror)
+                continue
+            if sp.expand(c + c2) == 0:
+                out.append(2 * c * sp.exp(_exponent(rest, items)) * sp.sinh(x))
+                done.add(mirror)
+                continue
+        out.append(c * sp.exp(_exponent(mon, items)))
+    body = sp.Add(*out)
+    if centre and symmetric and not body.has(sp.cosh, sp.sinh):
+        return _factor_form(F, items, centre=False)
+    decays = sorted({e for e in body.atoms(sp.exp)}, key=sp.default_sort_key)
+    if decays:
+        body = sp.collect(body, decays)
+    return sp.exp(_exponent(shift, items)), sp.factor_terms(body)
+
+
+def _double_angle(expr: sp.Expr) -> sp.Expr:
+    """sinh(x) cosh(x) -> sinh(2x)/2 inside products."""
+    def fold(m: sp.Mul) -> sp.Expr:
+        args = list(m.args)
+        for s in [a for a in args if isinstance(a, sp.sinh)]:
+            partner = sp.cosh(s.args[0])
+            if partner in args and s in args:
+                args.remove(s)
+                args.remove(partner)
+                args.append(sp.sinh(2 * s.args[0]) / 2)
+        return sp.Mul(*args)
+    return expr.replace(lambda e: e.is_Mul and e.has(sp.sinh) and e.has(sp.cosh), fold)
+
+
+def boltzmann_form(expr: sp.Expr) -> sp.Expr | None:
+    """``expr`` (a rational expression in exponentials of linear forms) in Boltzmann form.
+
+    Returns None when the exponents are not linear in generators or there are none.
+
+    Examples
+    --------
+    >>> import sympy as sp
+    >>> b, J = sp.symbols("beta J", positive=True); h = sp.Symbol("h", real=True)
+    >>> Zr = 1 + sp.exp(-b * (J - h)) + sp.exp(-b * J) + sp.exp(-b * (J + h))
+    >>> boltzmann_form(b * (sp.exp(b * h) - sp.exp(-b * h)) * sp.exp(-b * J) / Zr)
+    2*beta*exp(-J*beta)*sinh(beta*h)/((2*cosh(beta*h) + 1)*exp(-J*beta) + 1)
+    """
+    gens = _generators(expr)
+    if not gens:
+        return None
+    items = list(gens.items())
+    us = [u for _, (u, _s, _d) in items]
+    n, d = sp.fraction(sp.together(_substitute(expr, gens)))
+    out = sp.Integer(1)
+    for poly, sign in ((n, 1), (d, -1)):
+        content, factors = sp.factor_list(poly, *us)
+        out *= content**sign
+        for F, k in factors:
+            if F.has(*us):
+                pre, body = _factor_form(F.as_expr(), items)
+                out *= (pre * body) ** (sign * k)
+            else:
+                out *= F.as_expr() ** (sign * k)
+    return merge_exponentials(_double_angle(out))
+
+
+def merge_exponentials(expr: sp.Expr) -> sp.Expr:
+    """One exponential per product, its exponent expanded: exp(a)*exp(b) -> exp(a + b)."""
+    merged = sp.powsimp(expr, combine="exp")
+    return merged.xreplace({e: sp.exp(sp.expand(e.args[0])) for e in merged.atoms(sp.exp)})
