@@ -516,7 +516,7 @@ class Response:
         lines = [f"Linear response chi_AB of model {d.system.name!r}",
                  f"  A = {describe(d.A)}", f"  B = {describe(d.B)}",
                  f"  convention: {d.convention.describe()}",
-                 f"  blocks: {d.spectrum.structure.describe()}", "", "Levels (E, degeneracy, quantum numbers):"]
+                 f"  blocks: {d.spectrum.describe()}", "", "Levels (E, degeneracy, quantum numbers):"]
         for lv in d.levels:
             qn = "; ".join(", ".join(f"{n}={v}" for n, v in lab) for lab in lv.quantum_numbers)
             lines.append(f"  E = {sp.sstr(lv.energy):<30} g = {lv.degeneracy:<3} {qn}")

@@ -154,7 +154,7 @@ def describe_derivation(label: str, d: Derivation, quantities: Iterable[str], *,
     roots = RootNames(d)
     a_text, b_text = (texts[0] or str(d.A)), (texts[1] or str(d.B))
     lines = ["", f"== response '{label}': A = {a_text}, B = {b_text}" if label != "levels" else
-             "== levels", f"  blocks: {d.spectrum.structure.describe()}"]
+             "== levels", f"  blocks: {d.spectrum.describe()}"]
     if not d.spectrum.is_closed_form:
         lines.append("  note: some levels are exact roots of irreducible polynomials (CRootOf): "
                      "semi-closed form")

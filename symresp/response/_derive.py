@@ -96,17 +96,17 @@ def present(expr: sp.Expr, *, max_ops: int = 400) -> sp.Expr:
            for p in expr.atoms(sp.Pow)):
         # numeric surds: factoring over an algebraic extension costs far more than it tidies
         return expr
-    e = sp.together(expr)
-    n, d = sp.fraction(e)
-    n = sp.powsimp(sp.expand(n), combine="exp")
-    d = sp.powsimp(sp.expand(d), combine="exp")
-    if len(d.atoms(sp.exp)) != 1:
+    if expr.has(sp.exp):
         # Several Boltzmann factors (fields, several couplings): factored in the exponentials,
-        # relative to the lowest level, with cosh/sinh for the +-pairs of a field.
-        nice = boltzmann_form(n / d) if (n / d).has(sp.exp) else None
+        # relative to the lowest level, with cosh/sinh for the +-pairs of a field. One factor
+        # alone takes the path below (tanh/coth forms, textbook shapes such as 2b/(3 + e^bJ)).
+        nice = boltzmann_form(expr, min_generators=2)
         if nice is not None:
             return nice
-    n, d = sp.factor(n), sp.factor(d)
+    e = sp.together(expr)
+    n, d = sp.fraction(e)
+    n = sp.factor(sp.powsimp(sp.expand(n), combine="exp"))
+    d = sp.factor(sp.powsimp(sp.expand(d), combine="exp"))
     hyper = _hyperbolic_form(n, d) if len(d.atoms(sp.exp)) == 1 else None
     return hyper if hyper is not None else sp.powsimp(n / d, combine="exp")
 
@@ -381,7 +381,7 @@ def _group_levels(spec: Spectrum) -> tuple[list[Level], list[int]]:
             order.append(key)
         groups[key].append(i)
     levels, part_level = [], [0] * len(spec.parts)
-    blocks = spec.structure.blocks
+    blocks = [sol.block for sol in spec.solutions]
     for li, key in enumerate(order):
         idx = groups[key]
         for i in idx:
@@ -393,7 +393,7 @@ def _group_levels(spec: Spectrum) -> tuple[list[Level], list[int]]:
 
 
 def derive(system: System, A: Operator, B: Operator, *, convention: Convention = DEFAULT_CONVENTION,
-           budget: Budget = Budget()) -> Derivation:
+           budget: Budget = Budget(), symmetry: bool = True) -> Derivation:
     """Derive the linear response of ``A`` to a field coupling to ``B`` in ``system``.
 
     Parameters
@@ -403,6 +403,9 @@ def derive(system: System, A: Operator, B: Operator, *, convention: Convention =
         Measured and driving operators.
     convention : Convention
     budget : Budget
+    symmetry : bool
+        Use ring-translation and total-spin sectors where H has them (default); False solves
+        the blocks of the product basis as they are (same results, for cross-checks).
 
     Returns
     -------
@@ -421,7 +424,7 @@ def derive(system: System, A: Operator, B: Operator, *, convention: Convention =
     clock = budget.start()
     system = system.with_sites(A.sites | B.sites)
     spec = solve(system, clock=clock, max_symbolic_block=budget.max_symbolic_block,
-                 max_block=budget.max_block)
+                 max_block=budget.max_block, symmetry=symmetry)
     basis = spec.structure.basis
     As, Bs = sparse_form(A, basis), sparse_form(B, basis)
     W = spec.weights(As, Bs, clock)

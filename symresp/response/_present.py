@@ -110,11 +110,11 @@ def _factor_form(F: sp.Expr, items: list, centre: bool = True) -> tuple[sp.Expr,
         if mirror != mon and mirror in table and mirror not in done:
             c2 = table[mirror]
             x = _exponent(sym_part, items)
-            if sp.expand(c - c2) == 0:
+            if c == c2 or sp.expand(c - c2) == 0:
                 out.append(2 * c * sp.exp(_exponent(rest, items)) * sp.cosh(x))
                 done.add(mirror)
                 continue
-            if sp.expand(c + c2) == 0:
+            if c == -c2 or sp.expand(c + c2) == 0:
                 out.append(2 * c * sp.exp(_exponent(rest, items)) * sp.sinh(x))
                 done.add(mirror)
                 continue
@@ -142,10 +142,11 @@ def _double_angle(expr: sp.Expr) -> sp.Expr:
     return expr.replace(lambda e: e.is_Mul and e.has(sp.sinh) and e.has(sp.cosh), fold)
 
 
-def boltzmann_form(expr: sp.Expr) -> sp.Expr | None:
+def boltzmann_form(expr: sp.Expr, *, min_generators: int = 1) -> sp.Expr | None:
     """``expr`` (a rational expression in exponentials of linear forms) in Boltzmann form.
 
-    Returns None when the exponents are not linear in generators or there are none.
+    Returns None when the exponents are not linear in generators or there are fewer than
+    ``min_generators`` of them.
 
     Examples
     --------
@@ -156,7 +157,7 @@ def boltzmann_form(expr: sp.Expr) -> sp.Expr | None:
     2*beta*exp(-J*beta)*sinh(beta*h)/((2*cosh(beta*h) + 1)*exp(-J*beta) + 1)
     """
     gens = _generators(expr)
-    if not gens:
+    if not gens or len(gens) < min_generators:
         return None
     items = list(gens.items())
     us = [u for _, (u, _s, _d) in items]

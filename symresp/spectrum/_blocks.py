@@ -48,11 +48,13 @@ class Block:
     index: int
     positions: tuple[int, ...]
     labels: tuple[tuple[str, sp.Expr], ...]
+    parent: int = -1                 # for a symmetry sector: index of the block it splits
+    sector: object = None            # symmetry sector (spectrum._symmetry.Sector) or None
 
     @property
     def size(self) -> int:
-        """Number of states."""
-        return len(self.positions)
+        """Number of states (of the sector's subspace, for a symmetry sector)."""
+        return len(self.positions) if self.sector is None else self.sector.size
 
     def label_text(self) -> str:
         """Quantum numbers as ``Sz=1/2, N=1`` (empty when none were found)."""

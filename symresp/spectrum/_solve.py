@@ -46,6 +46,7 @@ from ..models import Clock, System
 from ._blocks import Block, BlockStructure, decompose
 from ._quadratic import Radical, Surd, bilinear
 from ._roots import LevelRoot
+from ._symmetry import MIN_SPLIT, find_symmetries, split_block, transform
 
 __all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean", "is_zero_number"]
 
@@ -227,17 +228,50 @@ class Spectrum:
         """False when some energy is an implicit root (semi-closed form)."""
         return not any(p.implicit for p in self.parts)
 
+    def describe(self) -> str:
+        """Solved blocks by size, conserved quantities and symmetries, on one line."""
+        sizes: dict[int, int] = {}
+        for s in self.solutions:
+            sizes[s.block.size] = sizes.get(s.block.size, 0) + 1
+        parts = ", ".join(f"{k} x{v}" for k, v in sorted(sizes.items()))
+        qn = ", ".join(q.name for q in self.structure.quantum_numbers) or "none"
+        text = f"{len(self.solutions)} blocks (sizes {parts}); conserved: {qn}"
+        sym = [s for s, word in (("k", "ring translation"), ("S", "total spin"))
+               if any(n == s for sol in self.solutions for n, _ in sol.block.labels)]
+        names = {"k": "k (ring translation)", "S": "S (total spin)"}
+        return text + (f"; symmetry sectors: {', '.join(names[x] for x in sym)}" if sym else "")
+
     def split(self, op: SparseForm) -> dict[tuple[int, int], dict[tuple[int, int], sp.Expr]]:
-        """Matrix elements of an operator grouped by (row block, column block) in local indices."""
+        """Matrix elements of an operator grouped by (row block, column block) in local indices.
+
+        For a symmetry sector the local matrix is :math:`V_s^+ X V_t` (see ``_symmetry``).
+        """
         where = self.structure.locations()
-        out: dict[tuple[int, int], dict[tuple[int, int], sp.Expr]] = {}
+        raw: dict[tuple[int, int], dict[tuple[int, int], sp.Expr]] = {}
+        gauges = {s.block.parent: s.gauge for s in self.solutions}
         for (r, c), v in op.items():
-            bi, li = where[r]
-            bj, lj = where[c]
-            gi, gj = self.solutions[bi].gauge, self.solutions[bj].gauge
+            pi, li = where[r]
+            pj, lj = where[c]
+            gi, gj = gauges[pi], gauges[pj]
             if gi is not None or gj is not None:
                 v = sp.expand(v * (gj[lj] if gj else 1) / (gi[li] if gi else 1))
-            out.setdefault((bi, bj), {})[(li, lj)] = v
+            raw.setdefault((pi, pj), {})[(li, lj)] = v
+        children: dict[int, list[int]] = {}
+        for k, s in enumerate(self.solutions):
+            children.setdefault(s.block.parent, []).append(k)
+        out: dict[tuple[int, int], dict[tuple[int, int], sp.Expr]] = {}
+        sizes = {b.index: len(b.positions) for b in self.structure.blocks}
+        for (pi, pj), blk in raw.items():
+            for bi in children[pi]:
+                for bj in children[pj]:
+                    si, sj = self.solutions[bi].block.sector, self.solutions[bj].block.sector
+                    if si is None and sj is None:
+                        out[(bi, bj)] = blk
+                        continue
+                    t = transform(blk, si.dual if si is not None else None,
+                                  sj.V if sj is not None else None, (sizes[pi], sizes[pj]))
+                    if t:
+                        out[(bi, bj)] = t
         return out
 
     # ---------------------------------------------------------------- weights
@@ -785,7 +819,7 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
 
 
 def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int = 12,
-          max_block: int = 400) -> Spectrum:
+          max_block: int = 400, symmetry: bool = True) -> Spectrum:
     """Exact spectrum of ``system`` (cached on the system).
 
     Parameters
@@ -795,6 +829,9 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
         Running budget, checked between steps.
     max_symbolic_block, max_block : int
         Size limits (see :class:`symresp.models.Budget`).
+    symmetry : bool
+        Split blocks further by ring translations and total spin where H has them (see
+        :mod:`._symmetry`); False solves the blocks of the product basis as they are.
 
     Returns
     -------
@@ -817,7 +854,8 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
     >>> sorted({p.energy for p in solve(System.build(J * (a.vec @ b.vec))).parts}, key=str)
     [-3*J/4, J/4]
     """
-    memo = system._memo.get("spectrum")
+    key = "spectrum" if symmetry else "spectrum-plain"
+    memo = system._memo.get(key)
     if memo is not None:
         return memo
     structure = decompose(system, clock)
@@ -828,28 +866,44 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
         bi, li = where[r]
         _, lj = where[c]
         local[bi][(li, lj)] = v
-    sols = []
+    large = any(b.size >= MIN_SPLIT for b in structure.blocks)
+    sym = find_symmetries(structure.basis, H) if symmetry and large else None
+    if clock and sym is not None:
+        clock.check("symmetry sectors")
+    sols: list[BlockSolution] = []
     params = system.parameters
     for b in structure.blocks:
-        if b.size > max_block:
-            raise BudgetExceeded(
-                f"block {b.index} ({b.label_text()}) has {b.size} states, above the limit "
-                f"{max_block} for exact solution; restrict to a sector or raise Budget(max_block=...)"
-            )
         Hb = local[b.index]
         gauge = _gauge(Hb, b.size)
-        if gauge is not None:
-            Hb = {(i, j): sp.expand(v * gauge[j] / gauge[i]) for (i, j), v in Hb.items()}
-        sf = _scaled_form(Hb, b.size)
-        if sf is not None:
-            sol = _solve_scaled(b, *sf, clock)
+        sectors = None
+        if gauge is None and sym is not None and sym.names:
+            sectors = split_block(b.positions, sym)
+        if sectors is None:
+            pieces = [(Block(len(sols), b.positions, b.labels, parent=b.index), Hb)]
         else:
-            sol = _solve_symbolic(b, Hb, max_symbolic_block, clock, params)
-        if gauge is not None:
-            sol = replace(sol, gauge=tuple(gauge))
-        sols.append(sol)
-        if clock:
-            clock.check("solving blocks", f"block {b.index}")
+            n = b.size
+            pieces = [(Block(len(sols) + k, b.positions, b.labels + sec.labels, parent=b.index,
+                             sector=sec), transform(Hb, sec.dual, sec.V, (n, n)))
+                      for k, sec in enumerate(sectors)]
+        for blk, Hs in pieces:
+            if blk.size > max_block:
+                raise BudgetExceeded(
+                    f"block {blk.index} ({blk.label_text()}) has {blk.size} states, above the "
+                    f"limit {max_block} for exact solution; restrict to a sector or raise "
+                    f"Budget(max_block=...)"
+                )
+            if gauge is not None:
+                Hs = {(i, j): sp.expand(v * gauge[j] / gauge[i]) for (i, j), v in Hs.items()}
+            sf = _scaled_form(Hs, blk.size)
+            if sf is not None:
+                sol = _solve_scaled(blk, *sf, clock)
+            else:
+                sol = _solve_symbolic(blk, Hs, max_symbolic_block, clock, params)
+            if gauge is not None:
+                sol = replace(sol, gauge=tuple(gauge))
+            sols.append(sol)
+            if clock:
+                clock.check("solving blocks", f"block {blk.index}")
     parts = []
     for s in sols:
         for fi, f in enumerate(s.factors):
@@ -859,5 +913,5 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
                 parts.append(Part(s.block.index, fi, ri, E, f.multiplicity, f.implicit))
     index = {(p.block, p.factor, p.root): i for i, p in enumerate(parts)}
     out = Spectrum(structure, tuple(sols), tuple(parts), index)
-    system._memo["spectrum"] = out
+    system._memo[key] = out
     return out

@@ -3,7 +3,7 @@
 Run::
 
     python tests/perf/bench_derive.py             # rings 2, 3, 4, 6, 8; plain route timeout 600 s
-    python tests/perf/bench_derive.py --quick     # rings up to 6; plain route on 2, 3, 4 with 60 s
+    python tests/perf/bench_derive.py --quick     # rings up to 6; plain routes on 2, 3, 4 with 60 s
     python tests/perf/bench_derive.py --sizes 2,3,4 --plain-timeout 120
 
 Model (fixed inputs, so runs are repeatable): spin-1/2 sites on a ring with symbolic
@@ -31,20 +31,30 @@ an earlier case carries over, with a wall-clock timeout:
 ``raw``      symresp up to the same unsimplified sum: ``Model(H)``, ``model.response(M_z)``, then
              the isothermal Lehmann sum assembled from the derivation's transitions, elastic
              weights and expectations (no presentation step).
+``plain+present``  the plain route, then what a user does to turn its raw sum into a formula
+             fit for a paper: a blanket ``sympy.simplify(chi)``. Its time is the plain route's
+             plus the simplify, in one fresh interpreter under the plain route's timeout; a case
+             that runs out of time is reported as "did not finish in N s". Run on the rings of
+             the plain route where the plain route itself finished.
 
-Two ratios for chi_zz isothermal alone, both plain time / symresp time: ``static`` against
-``Model`` + ``response(M_z)`` + ``static("isothermal")`` (the public result, which is also
-factored for presentation: the ratio of the summary line), and ``raw`` against the ``raw``
-route (like with like: both unsimplified). Where the routes finish, their chi_zz at a fixed
-point (J = 1, h = 3/10, beta = 7/5) is compared, and symresp's value is checked against the
-numeric reference (exact diagonalisation) as well. In a full run, a plain-route ring larger
-than one that already timed out is not run and is reported as such.
+Three ratios for chi_zz isothermal alone, each other-route time / symresp time: ``static`` =
+plain against ``Model`` + ``response(M_z)`` + ``static("isothermal")`` (the public result, which
+is also factored for presentation: the ratio of the summary line), ``raw`` = plain against the
+``raw`` route (like with like: both unsimplified), and ``present`` = plain+present against the
+same ``static("isothermal")`` (like with like: both formulas meant for presentation). Where the
+routes finish, their chi_zz at a fixed point (J = 1, h = 3/10, beta = 7/5) is compared, and
+symresp's value is checked against the numeric reference (exact diagonalisation) as well; the
+size of both presented formulas (``sympy.count_ops``, untimed) is printed. In a full run, a
+plain-route ring larger than one that already timed out is not run and is reported as such.
 
 For the largest ring the phases are timed separately (``symresp.models.System``,
 ``symresp.spectrum.decompose`` / ``solve``, ``symresp.response.derive``) to show where the time
 goes. The last line reads::
 
     summary: ring4_speedup=<ratio> ring6_seconds=<s> ring8_seconds=<s or 'skipped'>
+             ring4_present_speedup=<ratio, '>x' if plain+present timed out>
+
+(one line; ``ring4_present_speedup`` is the ``present`` ratio of the 4-ring).
 """
 
 from __future__ import annotations
@@ -146,12 +156,16 @@ def worker_symresp(n: int, check: bool) -> dict:
     if check:
         r = responses["zz"]
         out["value"] = _value(r.static("isothermal"))
+        out["zz_isothermal_ops"] = int(sp.count_ops(r.static("isothermal")))   # untimed
         out["reference"] = complex(r.reference(params={"J": 1.0, "h": 0.3}, T=1 / 1.4).isothermal).real
     return out
 
 
-def worker_plain(n: int) -> dict:
-    """Route (plain): eigenvects of the whole symbolic H, then the Lehmann sum by hand."""
+def _plain_sum(n: int) -> tuple[sp.Expr, list, list, dict[str, float], float, int, int]:
+    """The timed part of the plain route: eigenvects of the whole symbolic H, the Lehmann sum.
+
+    Returns (chi, states, matrix elements, steps, seconds, dimension, distinct eigenvalues).
+    """
     steps: dict[str, float] = {}
     t0 = time.perf_counter()
     model, Mz, _ = ring(n)
@@ -187,6 +201,12 @@ def worker_plain(n: int) -> dict:
     chi -= BETA * mean**2
     steps["lehmann sum"] = time.perf_counter() - t
     total = time.perf_counter() - t0
+    return chi, states, a, steps, total, Hm.rows, len(eig)
+
+
+def worker_plain(n: int) -> dict:
+    """Route (plain): eigenvects of the whole symbolic H, then the Lehmann sum by hand."""
+    _chi, states, a, steps, total, dimension, levels = _plain_sum(n)
     # Check value, untimed: the same sum over the same exact pieces, evaluated at POINT term by
     # term (sympy's subs/N on the whole raw sum of the 6-ring takes minutes).
     b = float(POINT[BETA])
@@ -207,7 +227,19 @@ def worker_plain(n: int) -> dict:
                 val += b * pn[i] * w
             else:
                 val += (pn[i] - pn[j]) * w / (En[j] - En[i])
-    return dict(seconds=total, steps=steps, dimension=Hm.rows, levels=len(eig), value=val.real)
+    return dict(seconds=total, steps=steps, dimension=dimension, levels=levels, value=val.real)
+
+
+def worker_present(n: int) -> dict:
+    """Route (plain+present): the plain route, then a blanket ``sympy.simplify`` of its sum."""
+    chi, _states, _a, steps, plain_seconds, dimension, levels = _plain_sum(n)
+    t = time.perf_counter()
+    formula = sp.simplify(chi)
+    steps["simplify"] = time.perf_counter() - t
+    total = plain_seconds + steps["simplify"]
+    # Untimed: the presented formula is small, so it is evaluated whole at POINT.
+    return dict(seconds=total, steps=steps, dimension=dimension, levels=levels,
+                value=_value(formula), ops=int(sp.count_ops(formula)))
 
 
 def worker_raw(n: int) -> dict:
@@ -266,7 +298,7 @@ def run_case(kind: str, n: int, timeout: float, check: bool = False) -> dict:
     t0 = time.perf_counter()
     try:
         proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout,
-                              preexec_fn=cap_memory if kind == "plain" else None)
+                              preexec_fn=cap_memory if kind in ("plain", "present") else None)
     except subprocess.TimeoutExpired:
         return {"timeout": True, "wall": time.perf_counter() - t0}
     wall = time.perf_counter() - t0
@@ -289,7 +321,7 @@ def best_of(kind: str, n: int, timeout: float, repeat: int, check: bool = False)
     if not good:
         return first
     best = dict(min(good, key=lambda r: r["seconds"]))
-    for key in ("value", "reference"):
+    for key in ("value", "reference", "zz_isothermal_ops"):   # computed on the checked run only
         if key in first:
             best[key] = first[key]
     best["runs"] = [r["seconds"] for r in good]
@@ -305,14 +337,14 @@ def _s(x: float) -> str:
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true",
-                    help="rings up to 6; plain route on 2, 3, 4 with a 60 s timeout")
+                    help="rings up to 6; plain and plain+present routes on 2, 3, 4 with a 60 s timeout")
     ap.add_argument("--sizes", default=None, help="comma-separated ring sizes (default 2,3,4,6,8)")
     ap.add_argument("--plain-timeout", type=float, default=None,
                     help="seconds per plain-route case (default 600, --quick 60)")
     ap.add_argument("--timeout", type=float, default=900.0, help="seconds per symresp case")
     ap.add_argument("--repeat", type=int, default=3,
                     help=f"fresh-process repeats of cases under {REPEAT_BELOW:g} s (minimum kept)")
-    ap.add_argument("--worker", choices=("symresp", "raw", "plain", "phases"), help=argparse.SUPPRESS)
+    ap.add_argument("--worker", choices=("symresp", "raw", "plain", "present", "phases"), help=argparse.SUPPRESS)
     ap.add_argument("--n", type=int, help=argparse.SUPPRESS)
     ap.add_argument("--check", action="store_true", help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
@@ -322,6 +354,7 @@ def main(argv=None) -> int:
         fn = {"symresp": lambda: worker_symresp(args.n, args.check),
               "raw": lambda: worker_raw(args.n),
               "plain": lambda: worker_plain(args.n),
+              "present": lambda: worker_present(args.n),
               "phases": lambda: worker_phases(args.n)}[args.worker]
         print("RESULT " + json.dumps(fn()), flush=True)
         return 0
@@ -408,6 +441,36 @@ def main(argv=None) -> int:
             print(f"     chi_zz at the check point {r['value']:.12g}, symresp {s['value']:.12g}: "
                   f"{'agree' if rel <= CHECK_RTOL else 'DISAGREE'} (rel. diff {rel:.1e})")
 
+    present: dict[int, dict] = {}
+    print("\nplain route + presentation (the plain route's raw sum, then sympy.simplify(chi); "
+          "same timeout as the plain route)")
+    for n in plain_sizes:
+        if "seconds" not in plain.get(n, {}):
+            # This route runs the plain route first under the same timeout, so it cannot finish
+            # where that did not. A smaller ring that timed out here is no reason to skip: the
+            # cost of simplify does not grow monotonically with the ring (the triangle's sum
+            # takes longer to simplify than the 4-ring's).
+            present[n] = {"skipped": True}
+            print(f"  {n}: not run (the plain route alone did not finish)")
+            continue
+        r = best_of("present", n, plain_timeout, args.repeat)
+        present[n] = r
+        if "seconds" not in r:
+            why = f"did not finish in {plain_timeout:g} s" if r.get("timeout") else r["error"]
+            print(f"  {n}: {why}")
+            continue
+        st = r["steps"]
+        plain_part = r["seconds"] - st["simplify"]
+        s = sym.get(n, {})
+        size = (f"; symresp static(): {s['zz_isothermal_ops']}" if "zz_isothermal_ops" in s
+                else "")
+        print(f"  {n} sites: {_s(r['seconds'])} s (plain sum {_s(plain_part)}, simplify "
+              f"{_s(st['simplify'])}); formula size {r['ops']} operations (count_ops{size})")
+        if "value" in s:
+            rel = abs(r["value"] - s["value"]) / max(abs(s["value"]), 1e-300)
+            print(f"     chi_zz at the check point {r['value']:.12g}, symresp {s['value']:.12g}: "
+                  f"{'agree' if rel <= CHECK_RTOL else 'DISAGREE'} (rel. diff {rel:.1e})")
+
     def ratio(num: dict | None, den: float | None) -> str:
         if num is None or num.get("skipped") or den is None:
             return "-"
@@ -420,11 +483,13 @@ def main(argv=None) -> int:
 
     print(f"\n{'':19s} {'symresp, full derivation':>25s} | chi_zz isothermal only")
     print(f" {'size':>4s} {'dim':>4s} {'target':>7s} {'derivation':>10s} {'meets':>5s} {'process':>8s} | "
-          f"{'static()':>8s} {'raw sum':>7s} {'plain':>8s} {'ratio':>6s} {'ratio':>6s}")
-    print(f"{'':45s}| {'':26s}{'static':>6s} {'raw':>6s}")
+          f"{'static()':>8s} {'raw sum':>7s} {'plain':>8s} {'ratio':>6s} {'ratio':>6s} "
+          f"{'plain+':>8s} {'ratio':>7s}")
+    print(f"{'':45s}| {'':26s}{'static':>6s} {'raw':>6s} {'present':>8s} {'present':>7s}")
     ratios: dict[int, str] = {}
+    present_ratios: dict[int, str] = {}
     for n in sizes:
-        s, p, w = sym[n], plain.get(n), raw.get(n, {})
+        s, p, w, q = sym[n], plain.get(n), raw.get(n, {}), present.get(n)
         target = f"{TARGETS[n]:g}" if n in TARGETS else "-"
         if "seconds" in s:
             meets = ("yes" if s["seconds"] < TARGETS[n] else "no") if n in TARGETS else "-"
@@ -440,14 +505,24 @@ def main(argv=None) -> int:
             p_txt = _s(p["seconds"])
         else:
             p_txt = f"> {plain_timeout:g}" if p.get("timeout") else "error"
+        if q is None or q.get("skipped"):
+            q_txt = "not run"
+        elif "seconds" in q:
+            q_txt = _s(q["seconds"])
+        else:
+            q_txt = f"> {plain_timeout:g}" if q.get("timeout") else "error"
         ratios[n] = ratio(p, zz)
+        present_ratios[n] = ratio(q, zz)
         dim = s.get("dimension", 2**n)
         print(f" {n:4d} {dim:4d} {target:>7s} {left} | {(_s(zz) if zz else '-'):>8s} "
-              f"{(_s(rw) if rw else '-'):>7s} {p_txt:>8s} {ratios[n]:>6s} {ratio(p, rw):>6s}")
+              f"{(_s(rw) if rw else '-'):>7s} {p_txt:>8s} {ratios[n]:>6s} {ratio(p, rw):>6s} "
+              f"{q_txt:>8s} {present_ratios[n]:>7s}")
     print(" (seconds, each after the imports of a fresh interpreter; 'process' adds interpreter start "
           "and imports;\n  'meets' compares the derivation with the target; ratio = plain / symresp "
           "for chi_zz isothermal: 'static'\n  is the public static(\"isothermal\") result, factored "
-          "for presentation; 'raw' the unsimplified sum\n  like the plain route's)")
+          "for presentation; 'raw' the unsimplified sum\n  like the plain route's; 'present' = "
+          "plain+present / static(), both formulas meant for presentation;\n  '>' where a plain "
+          "route did not finish within its timeout)")
 
     print("\ngrowth of the symresp derivation time with ring size (time ~ dim^k)")
     done = [n for n in sizes if "seconds" in sym[n]]
@@ -486,7 +561,7 @@ def main(argv=None) -> int:
     print(f"\nload average at end {os.getloadavg()[0]:.2f}; total wall time "
           f"{time.perf_counter() - t_start:.1f} s")
     print(f"summary: ring4_speedup={ratios.get(4, 'skipped')} ring6_seconds={secs(6)} "
-          f"ring8_seconds={secs(8)}")
+          f"ring8_seconds={secs(8)} ring4_present_speedup={present_ratios.get(4, 'skipped')}")
     return 0
 
 
