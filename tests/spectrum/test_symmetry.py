@@ -177,11 +177,12 @@ def test_broken_translation_is_not_used():
     assert "ring translation" not in text and "total spin" in text
 
 
-def test_spin_three_halves_keeps_translation_but_not_total_spin():
-    # S^2 of spins 3/2 has surds in the product basis: no S split, values still exact.
+def test_spin_three_halves_blocks_are_not_split():
+    # Spins 3/2 need the diagonal rescaling of their blocks (surds in S^+ S^-): no sectors
+    # (docs/engine.md), and the values stay exact.
     p = {"J": 0.8, "h": 0.3}
     r = _check(3, Fraction(3, 2), *TOTAL_X, p, T=1.1)
-    assert "total spin" not in r.derivation.spectrum.describe()
+    assert "symmetry sectors" not in r.derivation.spectrum.describe()
 
 
 def test_exchange_anisotropy_breaks_total_spin_only():
