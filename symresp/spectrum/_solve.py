@@ -46,7 +46,7 @@ from ..models import Clock, System
 from ._blocks import Block, BlockStructure, decompose
 from ._quadratic import Radical, Surd, bilinear
 from ._roots import LevelRoot
-from ._symmetry import MIN_SPLIT, find_symmetries, split_block, transform
+from ._symmetry import find_symmetries, split_block, transform
 
 __all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean", "is_zero_number"]
 
@@ -866,8 +866,7 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
         bi, li = where[r]
         _, lj = where[c]
         local[bi][(li, lj)] = v
-    large = any(b.size >= MIN_SPLIT for b in structure.blocks)
-    sym = find_symmetries(structure.basis, H) if symmetry and large else None
+    sym = find_symmetries(structure.basis, H) if symmetry else None
     if clock and sym is not None:
         clock.check("symmetry sectors")
     sols: list[BlockSolution] = []
@@ -878,7 +877,10 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
         sectors = None
         if gauge is None and sym is not None and sym.names:
             sectors = split_block(b.positions, sym)
-        if sectors is None:
+        if sectors is not None and sectors[0].V is None:
+            pieces = [(Block(len(sols), b.positions, b.labels + sectors[0].labels,
+                             parent=b.index), Hb)]
+        elif sectors is None:
             pieces = [(Block(len(sols), b.positions, b.labels, parent=b.index), Hb)]
         else:
             n = b.size

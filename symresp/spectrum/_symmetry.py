@@ -39,17 +39,13 @@ from ..algebra import Basis, SparseForm
 
 __all__ = ["Sector", "Symmetries", "find_symmetries", "split_block", "transform"]
 
-#: Blocks smaller than this are solved as they are (splitting would cost more than it saves).
-MIN_SPLIT = 6
-
-
 @dataclass(frozen=True, slots=True, eq=False)
 class Sector:
     """A symmetry sector of a block: extra labels, basis V (n x m) and dual rows (m x n)."""
 
     labels: tuple[tuple[str, sp.Expr], ...]
-    V: flint.fmpq_mat
-    dual: flint.fmpq_mat
+    V: flint.fmpq_mat | None          # None: the whole block is this one sector
+    dual: flint.fmpq_mat | None
 
     @property
     def size(self) -> int:
@@ -273,8 +269,6 @@ def _polynomial_of(M: flint.fmpq_mat, coeffs: list[Fraction]) -> flint.fmpq_mat:
 def split_block(positions: tuple[int, ...], sym: Symmetries) -> list[Sector] | None:
     """Sectors of the block on ``positions``; None when no symmetry splits it."""
     n = len(positions)
-    if n < MIN_SPLIT:
-        return None
     local = {p: i for i, p in enumerate(positions)}
     sectors: list[tuple[tuple, flint.fmpq_mat, flint.fmpq_mat]] = []
     identity = flint.fmpq_mat(n, n)
@@ -320,8 +314,10 @@ def split_block(positions: tuple[int, ...], sym: Symmetries) -> list[Sector] | N
                     W, Wd = wd
                     new.append((labels + (("S", _spin_of(c)),), V * W, Wd * dual))
         sectors = new
-    if len(sectors) <= 1:
+    if not sectors or not sectors[0][0]:
         return None
+    if len(sectors) == 1:
+        return [Sector(sectors[0][0], None, None)]     # labels only: the block is one sector
     return [Sector(labels, V, dual) for labels, V, dual in sectors]
 
 

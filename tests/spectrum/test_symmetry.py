@@ -177,12 +177,14 @@ def test_broken_translation_is_not_used():
     assert "ring translation" not in text and "total spin" in text
 
 
-def test_spin_three_halves_blocks_are_not_split():
-    # Spins 3/2 need the diagonal rescaling of their blocks (surds in S^+ S^-): no sectors
-    # (docs/engine.md), and the values stay exact.
+def test_spin_three_halves_blocks_needing_a_rescaling_are_not_split():
+    # Spins 3/2 carry surds in S^+ S^-: no total-spin sectors, and blocks that need the
+    # diagonal rescaling stay whole (docs/engine.md); the values stay exact.
     p = {"J": 0.8, "h": 0.3}
     r = _check(3, Fraction(3, 2), *TOTAL_X, p, T=1.1)
-    assert "symmetry sectors" not in r.derivation.spectrum.describe()
+    spec = r.derivation.spectrum
+    assert "total spin" not in spec.describe()
+    assert all(s.block.sector is None for s in spec.solutions if s.gauge is not None)
 
 
 def test_exchange_anisotropy_breaks_total_spin_only():
