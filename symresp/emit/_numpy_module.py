@@ -233,24 +233,48 @@ def _doc(key: str, plan: Plan) -> str:
 # ------------------------------------------------------------------------------ public glue
 def _glue(plan: Plan, has_time: bool) -> list[str]:
     """The public functions: explicit signatures (curve_fit counts the parameters) calling the
-    drivers of the runtime text with the printed kernels."""
+    drivers of the runtime text with the printed kernels.
+
+    Each function first tries the case of a fit or a plot: one float64 grid of at most one
+    chunk, every other argument a float (numpy.float64, which scipy's fitters pass, counts).
+    That path does only the checks this case needs and calls the kernels directly; anything
+    else, including every bad argument, goes to the general drivers, which check and raise.
+    """
     sig = "".join(f", {n}" for n in plan.names)
-    scalars = "".join(f"type({n}) is float and math.isfinite({n}) and " for n in plan.names)
     tup = "(" + "".join(f"{n}, " for n in plan.names) + ")"
+    # Plain floats into stage P: numpy scalars would make every kernel operation slower.
+    floats = "(" + "".join(f"{n} if type({n}) is float else float({n}), "
+                           for n in plan.names) + ")"
+    finite = "".join(f" and isinstance({n}, float) and math.isfinite({n})" for n in plan.names)
     n = len(plan.names)
     L: list[str] = []
 
     def fn(head: str, doc_key: str, body: list[str]) -> None:
         L.extend([head, f'    """{_doc(doc_key, plan)}\n    """', *body, "", ""])
 
+    def grid_fast(x: str, kernel: str, grid: str, eta: str, dtype: str) -> list[str]:
+        # One grid of frequencies or times at one temperature; eta is "eta" or "0.0" (chi(t)).
+        width = (" and type(eta) is float and eta > 0 and math.isfinite(eta)"
+                 if eta == "eta" else "")
+        return [f"    if (type({x}) is numpy.ndarray and {x}.dtype is _F64"
+                f" and 0 < {x}.size <= _CHUNK_COMPLEX",
+                f"            and type(T) is float and T > 0{finite}{width}):",
+                f"        value = {grid}({x}, {eta}, "
+                f"_{kernel}_s(1.0 / T, _stage_p_s(_params_dynamic_s, {floats})))",
+                f"        if (type(value) is numpy.ndarray and value.dtype is {dtype}"
+                f" and value.shape == {x}.shape):",
+                "            return value"]
+
     for kind in ("isothermal", "isolated"):
         fn(f"def chi_{kind}(T{sig}):", f"chi_{kind}", [
-            # Fast path of a fit: one temperature grid, parameters given as floats.
-            f"    if {scalars}type(T) is numpy.ndarray and T.dtype == _F64 and 0 < T.size <= _CHUNK:",
-            "        if not T.min() > 0:",
+            "    if (type(T) is numpy.ndarray and T.dtype is _F64 and 0 < T.size <= _CHUNK"
+            f"{finite}):",
+            "        if not T.item(T.argmin()) > 0:       # argmin finds the first NaN, if any",
             "            raise ValueError('T must be > 0 (and not nan) everywhere')",
-            f"        value = _{kind}_a(1.0 / T, _stage_p_s(_params_{kind}_s, {tup}))",
-            "        if type(value) is numpy.ndarray and value.dtype == _STATIC and value.shape == T.shape:",
+            f"        value = _{kind}_a(numpy.reciprocal(T), "
+            f"_stage_p_s(_params_{kind}_s, {floats}))",
+            "        if (type(value) is numpy.ndarray and value.dtype is _STATIC"
+            " and value.shape == T.shape):",
             "            return value",
             f"    return _static_call(_{kind}_s, _{kind}_a, _params_{kind}_s, _params_{kind}_a, "
             f"T, {tup}, None, _STATIC)"])
@@ -266,19 +290,22 @@ def _glue(plan: Plan, has_time: bool) -> list[str]:
         f"        return _static_call(_jacobian_isolated_s, _jacobian_isolated_a, "
         f"_params_jacobian_s, _params_jacobian_a, T, {tup}, {n}, _STATIC)",
         "    raise ValueError(f\"kind={kind!r} must be 'isothermal' or 'isolated'\")"])
-    fn(f"def chi_omega(omega, T{sig}, *, eta):", "chi_omega",
-       [f"    return _dynamic_call(_poles_omega_s, _poles_omega_a, _params_dynamic_s, "
+    fn(f"def chi_omega(omega, T{sig}, *, eta):", "chi_omega", [
+        *grid_fast("omega", "poles_omega", "_omega_w", "eta", "_C128"),
+        f"    return _dynamic_call(_poles_omega_s, _poles_omega_a, _params_dynamic_s, "
         f"_params_dynamic_a, _omega_w, 'omega', omega, T, {tup}, _width(eta), _C128)"])
     fn(f'def chi_spectral(omega, T{sig}, *, eta, shape="lorentzian"):', "chi_spectral",
        ['    if shape == "lorentzian":', "        grid = _spectral_lorentzian_w",
         '    elif shape == "gaussian":', "        grid = _spectral_gaussian_w",
         "    else:",
         "        raise ValueError(f\"shape={shape!r} must be 'lorentzian' or 'gaussian'\")",
+        *grid_fast("omega", "poles_spectral", "grid", "eta", "_WAVE"),
         f"    return _dynamic_call(_poles_spectral_s, _poles_spectral_a, _params_dynamic_s, "
         f"_params_dynamic_a, grid, 'omega', omega, T, {tup}, _width(eta), _WAVE)"])
     if has_time:
-        fn(f"def chi_time(t, T{sig}):", "chi_time",
-           [f"    return _dynamic_call(_poles_time_s, _poles_time_a, _params_dynamic_s, "
+        fn(f"def chi_time(t, T{sig}):", "chi_time", [
+            *grid_fast("t", "poles_time", "_time_w", "0.0", "_WAVE"),
+            f"    return _dynamic_call(_poles_time_s, _poles_time_a, _params_dynamic_s, "
             f"_params_dynamic_a, _time_w, 't', t, T, {tup}, 0.0, _WAVE)"])
     else:
         fn(f"def chi_time(t, T{sig}):", "chi_time",
