@@ -58,7 +58,7 @@ class Symmetries:
 
     translation: tuple[int, ...] | None      # position -> position of the shifted state
     order: int                               # N, the number of sites
-    total_spin: SparseForm | None            # S^2 with rational entries, or None
+    total_spin: dict | None                  # S^2 with exact fraction entries, or None
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -70,7 +70,9 @@ class Symmetries:
         return tuple(out)
 
 
-def _q(v: sp.Expr) -> flint.fmpq:
+def _q(v) -> flint.fmpq:
+    if isinstance(v, Fraction):
+        return flint.fmpq(v.numerator, v.denominator)
     r = sp.Rational(v)
     return flint.fmpq(int(r.p), int(r.q))
 
@@ -101,60 +103,66 @@ def _translation(basis: Basis, H: SparseForm) -> tuple[int, ...] | None:
     return tuple(perm)
 
 
-def _total_spin(basis: Basis, H: SparseForm) -> SparseForm | None:
+def _rational_sqrt(x: Fraction) -> Fraction | None:
+    p, q = math.isqrt(x.numerator), math.isqrt(x.denominator)
+    return Fraction(p, q) if p * p == x.numerator and q * q == x.denominator else None
+
+
+def _total_spin(basis: Basis, H: SparseForm) -> dict[tuple[int, int], Fraction] | None:
+    r"""S^2 on ``basis`` if all sites are spins, its entries rational and [H, S^2] = 0.
+
+    :math:`S^2 = \sum_i S_i(S_i+1) + 2\sum_{i<j} S^z_iS^z_j + \sum_{i \ne j} S^+_iS^-_j`, in
+    exact fractions (local index k has m = S - k).
+    """
     sites = basis.sites
     if len(sites) < 2 or any(s.kind != "spin" for s in sites):
         return None
+    spins = [Fraction(int(s.spin.p), int(s.spin.q)) for s in sites]
     index = {st: i for i, st in enumerate(basis.states)}
-    S2: dict[tuple[int, int], sp.Expr] = {}
-    raise_amp: dict[tuple, sp.Expr] = {}
-
-    def amp(site, m, step):        # <m + step| S^(+-) |m>
-        key = (site.spin, m, step)
-        if key not in raise_amp:
-            raise_amp[key] = sp.sqrt(site.spin * (site.spin + 1) - m * (m + step))
-        return raise_amp[key]
-
+    S2: dict[tuple[int, int], Fraction] = {}
+    const = sum((S * (S + 1) for S in spins), Fraction(0))
+    n = len(sites)
     for r, st in enumerate(basis.states):
-        m = [s.m_of(k) for s, k in zip(sites, st)]
-        diag = sum((s.spin * (s.spin + 1) for s in sites), sp.Integer(0))
-        diag += 2 * sum((m[i] * m[j] for i in range(len(sites)) for j in range(i + 1, len(sites))),
-                        sp.Integer(0))
-        S2[(r, r)] = diag
-        for i in range(len(sites)):
-            for j in range(len(sites)):
-                if i == j:
+        m = [S - k for S, k in zip(spins, st)]
+        total = sum(m, Fraction(0))
+        S2[(r, r)] = const + total * total - sum((x * x for x in m), Fraction(0))
+        for i in range(n):
+            if m[i] + 1 > spins[i]:
+                continue
+            up = spins[i] * (spins[i] + 1) - m[i] * (m[i] + 1)
+            for j in range(n):
+                if j == i or m[j] - 1 < -spins[j]:
                     continue
-                # S^+_i S^-_j, each unordered pair once per direction: 2 * (1/2)(S+S- + S-S+).
-                si, sj = sites[i], sites[j]
-                if m[i] + 1 > si.spin or m[j] - 1 < -sj.spin:
-                    continue
-                a = amp(si, m[i], 1) * amp(sj, m[j], -1)
+                amp = _rational_sqrt(up * (spins[j] * (spins[j] + 1) - m[j] * (m[j] - 1)))
+                if amp is None:
+                    return None            # spins >= 3/2: surds in S^2 (not split)
                 new = list(st)
-                new[i] = _index_of(si, m[i] + 1)
-                new[j] = _index_of(sj, m[j] - 1)
+                new[i] -= 1
+                new[j] += 1
                 c = index.get(tuple(new))
                 if c is None:
                     return None
-                S2[(c, r)] = S2.get((c, r), sp.Integer(0)) + a
-    if any(not v.is_Rational for v in S2.values()):
-        return None                    # spins >= 3/2: surds in S^2 (not split)
-    out = {k: v for k, v in S2.items() if v != 0}
-    # H must commute with S^2.
-    comps = _atoms(H)
-    S2m = _sparse_fmpq(out, basis.dimension, basis.dimension)
-    for R in comps.values():
-        Rm = _sparse_fmpq(R, basis.dimension, basis.dimension)
-        if Rm * S2m != S2m * Rm:
-            return None
-    return out
+                S2[(c, r)] = S2.get((c, r), Fraction(0)) + amp
+    S2 = {k: v for k, v in S2.items() if v}
+    rows: dict[int, list[tuple[int, Fraction]]] = {}
+    for (r, c), v in S2.items():
+        rows.setdefault(r, []).append((c, v))
+    for R in _atoms(H).values():
+        Rrows: dict[int, list[tuple[int, Fraction]]] = {}
+        for (r, c), v in R.items():
+            Rrows.setdefault(r, []).append((c, v))
+        if _product(R, rows) != _product(S2, Rrows):
+            return None                    # H does not conserve the total spin
+    return S2
 
 
-def _index_of(site, m: sp.Rational) -> int:
-    for k in range(site.dim):
-        if site.m_of(k) == m:
-            return k
-    raise ValueError(m)
+def _product(X: dict, Yrows: dict) -> dict:
+    """Sparse X @ Y with Y given by rows; exact, zeros dropped."""
+    out: dict[tuple[int, int], Fraction] = {}
+    for (r, k), v in X.items():
+        for c, w in Yrows.get(k, ()):
+            out[(r, c)] = out.get((r, c), Fraction(0)) + v * w
+    return {key: v for key, v in out.items() if v}
 
 
 def find_symmetries(basis: Basis, H: SparseForm) -> Symmetries:
