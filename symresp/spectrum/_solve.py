@@ -46,7 +46,7 @@ from ..models import Clock, System
 from ._blocks import Block, BlockStructure, decompose
 from ._quadratic import Radical, Surd, bilinear
 from ._roots import LevelRoot
-from ._symmetry import find_symmetries, split_block, transform
+from ._symmetry import decompose_entries, find_symmetries, split_block, transform
 
 __all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean", "is_zero_number"]
 
@@ -480,15 +480,6 @@ def _eval_root_poly(coeff: list, root: sp.Expr) -> sp.Expr:
     return clean(sum((c * root**p for p, c in enumerate(coeff)), sp.Integer(0)))
 
 
-def _decompose_entries(blk: dict[tuple[int, int], sp.Expr]) -> dict[sp.Expr, dict[tuple[int, int], Fraction]]:
-    """Write a matrix as sum_g g * R_g with scalar atoms g and rational matrices R_g."""
-    out: dict[sp.Expr, dict[tuple[int, int], Fraction]] = {}
-    for key, v in blk.items():
-        for atom, c in sp.expand(v).as_coefficients_dict().items():
-            out.setdefault(atom, {})[key] = Fraction(int(c.p), int(c.q))
-    return out
-
-
 def _flat_products(powers, comp: dict[tuple[int, int], Fraction], nrow: int, ncol: int,
                    transpose: bool) -> flint.fmpq_mat:
     """Rows k: vec(M^k R) (or vec((M^k R)^T)) for a sparse rational R of shape nrow x ncol."""
@@ -512,7 +503,7 @@ def _pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
     out: dict[tuple[int, int, int, int], sp.Expr] = {}
     ni, nj = si.block.size, sj.block.size
     if si.kind == "scaled" and sj.kind == "scaled":
-        Ad, Bd = _decompose_entries(a_blk), _decompose_entries(b_blk)
+        Ad, Bd = decompose_entries(a_blk), decompose_entries(b_blk)
         Xs = {g: _flat_products(si.powers, comp, ni, nj, transpose=False) for g, comp in Ad.items()}
         Ys = {g: _flat_products(sj.powers, comp, nj, ni, transpose=True) for g, comp in Bd.items()}
         for fa, fA in enumerate(si.factors):
@@ -569,7 +560,7 @@ def _pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
 
 def _scaled_form(Hb: dict[tuple[int, int], sp.Expr], n: int):
     """Return (shift, scale, {(i,j): Fraction}) if Hb = shift*1 + scale*M with rational M, else None."""
-    comps = _decompose_entries(Hb)
+    comps = decompose_entries(Hb)
     shift = sp.Integer(0)
     scale_atom = None
     M: dict[tuple[int, int], Fraction] = {}

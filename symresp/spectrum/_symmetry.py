@@ -37,7 +37,8 @@ import sympy as sp
 
 from ..algebra import Basis, SparseForm
 
-__all__ = ["Sector", "Symmetries", "find_symmetries", "split_block", "transform"]
+__all__ = ["Sector", "Symmetries", "find_symmetries", "split_block", "transform",
+           "decompose_entries"]
 
 @dataclass(frozen=True, slots=True, eq=False)
 class Sector:
@@ -147,7 +148,7 @@ def _total_spin(basis: Basis, H: SparseForm) -> dict[tuple[int, int], Fraction] 
     rows: dict[int, list[tuple[int, Fraction]]] = {}
     for (r, c), v in S2.items():
         rows.setdefault(r, []).append((c, v))
-    for R in _atoms(H).values():
+    for R in decompose_entries(H).values():
         Rrows: dict[int, list[tuple[int, Fraction]]] = {}
         for (r, c), v in R.items():
             Rrows.setdefault(r, []).append((c, v))
@@ -170,7 +171,8 @@ def find_symmetries(basis: Basis, H: SparseForm) -> Symmetries:
     return Symmetries(_translation(basis, H), len(basis.sites), _total_spin(basis, H))
 
 
-def _atoms(blk: dict) -> dict[sp.Expr, dict[tuple[int, int], Fraction]]:
+def decompose_entries(blk: dict) -> dict[sp.Expr, dict[tuple[int, int], Fraction]]:
+    """Write a sparse matrix as sum_g g * R_g with scalar atoms g and rational matrices R_g."""
     out: dict[sp.Expr, dict[tuple[int, int], Fraction]] = {}
     for key, v in blk.items():
         for atom, c in sp.expand(v).as_coefficients_dict().items():
@@ -194,7 +196,7 @@ def transform(blk: dict, left: flint.fmpq_mat | None, right: flint.fmpq_mat | No
     if left is None and right is None:
         return dict(blk)
     out: dict[tuple[int, int], sp.Expr] = {}
-    for atom, comp in _atoms(blk).items():
+    for atom, comp in decompose_entries(blk).items():
         X = _sparse_fmpq(comp, *shape)
         if left is not None:
             X = left * X
