@@ -1,12 +1,13 @@
 r"""Numbers from derived formulas: a tree-walking evaluator (layer: cases).
 
 Owns :func:`evaluate_precise` (mpmath, for verification) and :func:`evaluate_arrays` (numpy,
-for curves). Imports sympy, numpy, mpmath and :mod:`symresp.errors`.
+for curves). Imports sympy, numpy, mpmath, :mod:`symresp.errors` and :mod:`symresp.spectrum`.
 
 Derived expressions are walked node by node; no code is generated or executed. Each distinct
 sub-expression is evaluated once per call (sympy shares equal sub-trees). Implicit levels
 (``CRootOf`` of polynomials with rational coefficients) are exact constants and are evaluated
-with sympy to the working precision.
+with sympy to the working precision; parametric ones (``LevelRoot``) are found at every point
+(mpmath ``polyroots`` in the precise evaluator, batched companion matrices with numpy).
 
 The precise evaluator works in a private mpmath context, so no global precision setting is
 touched.
@@ -21,6 +22,7 @@ import sympy as sp
 from mpmath.ctx_mp import MPContext
 
 from ..errors import InputError
+from ..spectrum import LevelRoot
 
 __all__ = ["evaluate_precise", "evaluate_arrays", "PRECISE_DIGITS"]
 
@@ -80,14 +82,15 @@ def _as_basic(expr: object) -> sp.Basic:
 class _Backend:
     """Number system: constants and functions of one arithmetic."""
 
-    __slots__ = ("number", "constant", "functions", "power")
+    __slots__ = ("number", "constant", "functions", "power", "root")
 
     def __init__(self, number: Callable, constant: Mapping, functions: Mapping,
-                 power: Callable) -> None:
+                 power: Callable, root: Callable) -> None:
         self.number = number
         self.constant = constant
         self.functions = functions
         self.power = power
+        self.root = root          # root(k, coefficients): k-th smallest real root
 
 
 def _mp_backend(ctx: MPContext, digits: int) -> _Backend:
@@ -107,7 +110,12 @@ def _mp_backend(ctx: MPContext, digits: int) -> _Backend:
         sp.sech: ctx.sech, sp.csch: ctx.csch, sp.Abs: ctx.fabs, sp.re: ctx.re, sp.im: ctx.im,
         sp.conjugate: ctx.conj,
     }
-    return _Backend(number, {sp.pi: ctx.pi, sp.E: ctx.e, sp.I: ctx.mpc(0, 1)}, functions, power)
+    def root(k: int, coeffs: list):
+        roots = ctx.polyroots([ctx.re(c) for c in coeffs], maxsteps=200, extraprec=4 * digits)
+        return sorted(ctx.re(r) for r in roots)[k]
+
+    return _Backend(number, {sp.pi: ctx.pi, sp.E: ctx.e, sp.I: ctx.mpc(0, 1)}, functions, power,
+                    root)
 
 
 def _np_backend() -> _Backend:
@@ -127,8 +135,19 @@ def _np_backend() -> _Backend:
         sp.sech: lambda x: 1 / np.cosh(x), sp.csch: lambda x: 1 / np.sinh(x), sp.Abs: np.abs,
         sp.re: np.real, sp.im: np.imag, sp.conjugate: np.conj,
     }
+    def root(k: int, coeffs: list):
+        # Batched companion matrices: the roots of a Hermitian block's factor are real.
+        cs = np.broadcast_arrays(*[np.real(np.asarray(c, dtype=complex)) for c in coeffs])
+        n = len(cs) - 1
+        comp = np.zeros(cs[0].shape + (n, n))
+        for j in range(n):
+            comp[..., 0, j] = -cs[j + 1] / cs[0]
+        for j in range(1, n):
+            comp[..., j, j - 1] = 1.0
+        return np.sort(np.linalg.eigvals(comp).real, axis=-1)[..., k].astype(complex)
+
     return _Backend(number, {sp.pi: complex(np.pi), sp.E: complex(np.e), sp.I: 1j}, functions,
-                    power)
+                    power, root)
 
 
 class _Walker:
@@ -177,6 +196,8 @@ class _Walker:
                 e = int(node.exp)
                 return base ** e if e >= 0 else 1 / (base ** (-e))
             return b.power(base, self.value_of(node.exp))
+        if isinstance(node, LevelRoot):
+            return b.root(int(node.args[0]), [self.value_of(c) for c in node.args[1:]])
         f = b.functions.get(node.func)
         if f is not None and len(node.args) == 1:
             return f(self.value_of(node.args[0]))

@@ -14,6 +14,7 @@ import sympy as sp
 from ..cases import Case, Verification
 from ..conventions import omega, t
 from ..response import Derivation
+from ..spectrum import LevelRoot
 
 __all__ = ["describe_case", "describe_derivation", "derivation_json", "verification_table",
            "QUANTITY_TITLES", "decimal", "text", "RootNames"]
@@ -62,17 +63,21 @@ class RootNames:
 
     def rename(self, expr: sp.Expr) -> sp.Expr:
         """``expr`` with every implicit root replaced by its short name."""
-        roots = expr.atoms(sp.CRootOf)
+        roots = expr.atoms(sp.CRootOf, LevelRoot)
         if not roots:
             return expr
         mapping = {}
+        x = sp.Symbol("x")
         for r in sorted(roots, key=sp.default_sort_key):
             if r not in self.symbols:
-                poly = r.poly.as_expr().subs(r.poly.gen, sp.Symbol("x"))
+                if isinstance(r, LevelRoot):
+                    poly, index = r.polynomial(x), int(r.args[0])
+                else:
+                    poly, index = r.poly.as_expr().subs(r.poly.gen, x), r.index
                 if poly not in self.polys:
                     self.polys.append(poly)
                 k = self.polys.index(poly) + 1
-                self.symbols[r] = sp.Symbol(f"{self.prefix}{k}_{r.index}", real=bool(r.is_real))
+                self.symbols[r] = sp.Symbol(f"{self.prefix}{k}_{index}", real=True)
             mapping[r] = self.symbols[r]
         return expr.xreplace(mapping)
 
@@ -84,10 +89,13 @@ class RootNames:
         """One line per implicit root: name, defining polynomial, numeric value."""
         out = []
         for r, sym in sorted(self.symbols.items(), key=lambda item: item[1].name):
-            poly = self.polys[int(sym.name[len(self.prefix):].split("_")[0]) - 1]
-            out.append((sym.name, sp.sstr(poly), r.index, sp.N(r, 15)))
-        return [f"{name} = root {index} (ascending) of {poly} = {value}"
-                for name, poly, index, value in out]
+            poly = sp.sstr(self.polys[int(sym.name[len(self.prefix):].split("_")[0]) - 1])
+            if isinstance(r, LevelRoot):
+                out.append(f"{sym.name} = root {int(r.args[0])} (ascending) of {poly}, in x "
+                           "(parameter-dependent: solved numerically where numbers are given)")
+            else:
+                out.append(f"{sym.name} = root {r.index} (ascending) of {poly} = {sp.N(r, 15)}")
+        return out
 
 
 def quantity(d: Derivation, name: str) -> sp.Expr:
@@ -156,8 +164,8 @@ def describe_derivation(label: str, d: Derivation, quantities: Iterable[str], *,
     lines = ["", f"== response '{label}': A = {a_text}, B = {b_text}" if label != "levels" else
              "== levels", f"  blocks: {d.spectrum.describe()}"]
     if not d.spectrum.is_closed_form:
-        lines.append("  note: some levels are exact roots of irreducible polynomials (CRootOf): "
-                     "semi-closed form")
+        lines.append("  note: some levels are exact roots of irreducible polynomials of degree >= 3: "
+                     "semi-closed form (names and polynomials at the end)")
     lines.append(f"  levels ({len(d.levels)}): energy, degeneracy g, quantum numbers")
     for k, lv in enumerate(d.levels):
         qn = "; ".join(", ".join(f"{n}={v}" for n, v in lab) for lab in lv.quantum_numbers)
@@ -179,7 +187,7 @@ def describe_derivation(label: str, d: Derivation, quantities: Iterable[str], *,
             lines.append(f"  {QUANTITY_TITLES[q]} = {roots.text(expr)}")
     legend = roots.legend()
     if legend:
-        lines.append("  implicit levels (exact real algebraic numbers):")
+        lines.append("  implicit levels (exact real roots):")
         lines += [f"    {line}" for line in legend]
     return lines
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import os
 import textwrap
 
@@ -302,6 +303,32 @@ def test_verify_passes_on_a_small_case_and_records_every_quantity():
                                               "time"}
     with pytest.raises(InputError):
         verify_case(case, points=0)
+
+
+def test_verify_and_curves_handle_semi_closed_levels():
+    # A spin 1 with axial D in a tilted field: one 3 x 3 block with an irreducible cubic in
+    # three parameters, so the levels are implicit roots found numerically at every point.
+    case = parse_case(case_text('''
+        [model]
+        hamiltonian = "D*s.z^2 + hz*s.z + hx*s.x"
+        [parameters]
+        D = { assume = "positive", value = 1.3 }
+        hz = { assume = "real", value = 0.4 }
+        hx = { assume = "real", value = 0.7 }
+        [sites]
+        s = "spin 1"
+        [[response]]
+        label = "x"
+        A = "s.x"
+        quantities = ["isothermal", "isolated", "frequency"]
+    '''))
+    v = verify_case(case, points=2, seed=5)
+    assert v.ok, v
+    derived = dict(derive_case(case))
+    curves = response_curves(case, "x", derived["x"], points=12)
+    arrays = [getattr(curves, f.name) for f in dataclasses.fields(curves)]
+    arrays = [a for a in arrays if isinstance(a, np.ndarray)]
+    assert arrays and all(a.size and np.all(np.isfinite(a)) for a in arrays)
 
 
 def test_curves_need_default_values_and_obey_isothermal_above_isolated():
