@@ -28,6 +28,7 @@ from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import mpmath as mp
+import numpy as np
 import sympy as sp
 
 from ..errors import InputError
@@ -184,11 +185,32 @@ def _constants_as_floats(expr: sp.Expr) -> sp.Expr:
     return expr.xreplace({r: sp.Float(r.evalf(WORKING_DIGITS + 10), WORKING_DIGITS + 10) for r in roots})
 
 
+def _level_root_mp(k, *coeffs):
+    """k-th smallest real root of a parametric characteristic factor, in mpmath."""
+    cs = [mp.re(mp.mpmathify(c)) for c in coeffs]
+    roots = mp.polyroots(cs, maxsteps=200, extraprec=2 * mp.mp.prec)
+    return sorted(mp.re(r) for r in roots)[int(k)]
+
+
+def _level_root_np(k, *coeffs):
+    """The same with numpy arrays of coefficients (batched companion matrices)."""
+    cs = np.broadcast_arrays(*[np.real(np.asarray(c, dtype=complex)) for c in coeffs])
+    n = len(cs) - 1
+    comp = np.zeros(cs[0].shape + (n, n))
+    for j in range(n):
+        comp[..., 0, j] = -cs[j + 1] / cs[0]
+    for j in range(1, n):
+        comp[..., j, j - 1] = 1.0
+    return np.sort(np.linalg.eigvals(comp).real, axis=-1)[..., int(k)]
+
+
 def compile_expression(expr: sp.Expr, args: Sequence[sp.Symbol], backend: str = "mpmath") -> Callable:
     """A fast numeric function of ``args`` for a symresp-produced expression.
 
     ``sympy.lambdify`` prints the expression tree to code; it is only ever given expressions
-    built by symresp itself (never user text). Implicit roots become 40-digit constants.
+    built by symresp itself (never user text). Implicit roots with rational coefficients become
+    40-digit constants; parametric ones (``LevelRoot``) are solved at each call.
     """
     e = expr if isinstance(expr, sp.Basic) else sp.Integer(expr)
-    return sp.lambdify(tuple(args), _constants_as_floats(e), modules=backend)
+    roots = {"LevelRoot": _level_root_mp if backend == "mpmath" else _level_root_np}
+    return sp.lambdify(tuple(args), _constants_as_floats(e), modules=[roots, backend])

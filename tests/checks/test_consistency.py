@@ -183,3 +183,14 @@ def test_doctests_of_the_public_objects_run():
     for obj in (consistency, Report, CheckRow):
         for test in doctest.DocTestFinder().find(obj, obj.__name__, module=False, globs={}):
             assert doctest.DocTestRunner().run(test).failed == 0, test.name
+
+
+def test_consistency_and_hand_check_work_with_parametric_implicit_levels():
+    # Spin 1, axial D, tilted field: the levels are roots of a cubic in three parameters.
+    D, hz, hx = (sp.Symbol(n, positive=True) for n in ("D", "hz", "hx"))
+    s = sr.spin("s", 1)
+    r = sr.Model(D * s.z**2 + hz * s.z + hx * s.x).response(s.x)
+    assert not r.is_closed_form
+    report = r.consistency(points=1)
+    assert report.ok, report
+    assert r.check(r.static("isothermal")).agrees
