@@ -57,9 +57,10 @@ class LevelRoot(sp.Function):
             real = sorted(mpmath.re(r) for r in roots)
             return sp.Float(real[int(k)], dps)
 
-    def _latex(self, printer):
+    def _latex(self, printer, exp=None):
         k = self.args[0]
-        return rf"\varepsilon_{{{printer._print(k)}}}"
+        base = rf"\varepsilon_{{{printer._print(k)}}}"
+        return base if exp is None else rf"{base}^{{{exp}}}"
 
     def polynomial(self, var: sp.Symbol) -> sp.Expr:
         """The defining polynomial in ``var``."""

@@ -106,3 +106,12 @@ def test_latex_rejects_bad_arguments(kwargs):
 def test_latex_rejects_non_derivations():
     with pytest.raises(InputError):
         latex_document("H = J S.S")
+
+
+def test_parametric_implicit_roots_are_named_and_defined_by_their_polynomial():
+    doc = latex_document(response("tilted_field").derivation)
+    assert "LevelRoot" not in doc and "varepsilon" not in doc
+    defs = [r for r in _rows(doc) if re.match(r"r_\{\d\} &: ", r)]
+    assert len(defs) == 3
+    # The cubic of the block D S_z^2 + h S_z + hx S_x in the level variable x.
+    assert all("x^{3}" in d and "hx" in d and r"\approx" not in d for d in defs)
