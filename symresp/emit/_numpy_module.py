@@ -23,6 +23,7 @@ import sympy as sp
 from ..algebra import describe
 from ..errors import InputError
 from ..response import Derivation
+from ._eigen import eigen_plan
 from ._plan import Plan, build_plan, fingerprint
 from ._printers import ArrayPrinter, ScalarPrinter
 from ._program import (Program, energies_program, jacobian_program, omega_program,
@@ -282,14 +283,30 @@ def _glue(plan: Plan, has_time: bool) -> list[str]:
        ['    if kind == "isothermal":', f"        return chi_isothermal(T{sig})",
         '    if kind == "isolated":', f"        return chi_isolated(T{sig})",
         "    raise ValueError(f\"kind={kind!r} must be 'isothermal' or 'isolated'\")"])
-    fn(f'def jacobian_static(T{sig}, *, kind="isothermal"):', "jacobian_static",
-       ['    if kind == "isothermal":',
-        f"        return _static_call(_jacobian_isothermal_s, _jacobian_isothermal_a, "
-        f"_params_jacobian_s, _params_jacobian_a, T, {tup}, {n}, _STATIC)",
-        '    if kind == "isolated":',
-        f"        return _static_call(_jacobian_isolated_s, _jacobian_isolated_a, "
-        f"_params_jacobian_s, _params_jacobian_a, T, {tup}, {n}, _STATIC)",
-        "    raise ValueError(f\"kind={kind!r} must be 'isothermal' or 'isolated'\")"])
+    if plan.eigen:
+        # Semi-closed blocks: where two of their levels nearly coincide, the exact weights'
+        # derivatives lose digits; there the Jacobian is taken from the stable values.
+        fn(f'def jacobian_static(T{sig}, *, kind="isothermal"):', "jacobian_static",
+           ['    if kind == "isothermal":',
+            f"        J = _static_call(_jacobian_isothermal_s, _jacobian_isothermal_a, "
+            f"_params_jacobian_s, _params_jacobian_a, T, {tup}, {n}, _STATIC)",
+            "        return _semi_closed_jacobian(J, chi_isothermal, T, "
+            f"{tup}, energies, _IMPLICIT_LEVELS)",
+            '    if kind == "isolated":',
+            f"        J = _static_call(_jacobian_isolated_s, _jacobian_isolated_a, "
+            f"_params_jacobian_s, _params_jacobian_a, T, {tup}, {n}, _STATIC)",
+            "        return _semi_closed_jacobian(J, chi_isolated, T, "
+            f"{tup}, energies, _IMPLICIT_LEVELS)",
+            "    raise ValueError(f\"kind={kind!r} must be 'isothermal' or 'isolated'\")"])
+    else:
+        fn(f'def jacobian_static(T{sig}, *, kind="isothermal"):', "jacobian_static",
+           ['    if kind == "isothermal":',
+            f"        return _static_call(_jacobian_isothermal_s, _jacobian_isothermal_a, "
+            f"_params_jacobian_s, _params_jacobian_a, T, {tup}, {n}, _STATIC)",
+            '    if kind == "isolated":',
+            f"        return _static_call(_jacobian_isolated_s, _jacobian_isolated_a, "
+            f"_params_jacobian_s, _params_jacobian_a, T, {tup}, {n}, _STATIC)",
+            "    raise ValueError(f\"kind={kind!r} must be 'isothermal' or 'isolated'\")"])
     fn(f"def chi_omega(omega, T{sig}, *, eta):", "chi_omega", [
         *grid_fast("omega", "poles_omega", "_omega_w", "eta", "_C128"),
         f"    return _dynamic_call(_poles_omega_s, _poles_omega_a, _params_dynamic_s, "
@@ -381,15 +398,18 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
                          "symresp.response.Derivation (use response.derivation)")
     if name is not None and not isinstance(name, str):
         raise InputError(f"numpy_module_source: name={name!r} must be a string")
-    plan = build_plan(derivation)
+    exact = build_plan(derivation)
+    # Value functions diagonalise semi-closed blocks numerically (stable where their levels
+    # nearly coincide); the Jacobian differentiates the exact weights through the roots.
+    plan = eigen_plan(derivation, exact)
     fp = fingerprint(derivation)
     version = symresp_version()
-    P = {kind: params_program(plan, kind)
+    P = {kind: params_program(exact if kind == "jacobian" else plan, kind)
          for kind in ("isothermal", "isolated", "jacobian", "dynamic")}
 
-    static_vals = [p.S for p in plan.pairs] + list(plan.fluctuation) + list(plan.mean_a) + list(plan.mean_b)
-    static_dtype = "complex" if plan.is_complex(*static_vals) else "float"
-    wave_complex = plan.is_complex(*[p.S for p in plan.pairs]) or any(p.D != 0 for p in plan.pairs)
+    static_vals = [p.S for p in exact.pairs] + list(exact.fluctuation) + list(exact.mean_a) + list(exact.mean_b)
+    static_dtype = "complex" if exact.is_complex(*static_vals) else "float"
+    wave_complex = exact.is_complex(*[p.S for p in exact.pairs]) or any(p.D != 0 for p in exact.pairs)
     wave_dtype = "complex" if wave_complex else "float"
     has_time = plan.prescription == 1
 
@@ -417,6 +437,9 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     src += RUNTIME.splitlines()
     if plan.roots:
         src += ROOTS_RUNTIME.splitlines()
+        lam = {sym for rs in plan.roots for sym, _ in rs.picks}
+        implicit = tuple(a for a, e in enumerate(plan.energies) if e.free_symbols & lam)
+        src += ["", f"_IMPLICIT_LEVELS = {implicit!r}"]
     src += ["", f"_STATIC = numpy.dtype({static_dtype})", f"_WAVE = numpy.dtype({wave_dtype})"]
     src += ["", "", "# " + "-" * 90, "# Stage P: parameters only (energies, spacings, weights).",
             "# " + "-" * 90, "", ""]
@@ -427,7 +450,7 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
             "# " + "-" * 90, "", ""]
     for kind in ("isothermal", "isolated"):
         src += _both(static_program(plan, kind, P[kind].returns)) + ["", ""]
-        src += _both(jacobian_program(plan, kind, P["jacobian"].returns)) + ["", ""]
+        src += _both(jacobian_program(exact, kind, P["jacobian"].returns)) + ["", ""]
     for what in ("omega", "spectral", "time"):
         src += _both(poles_program(plan, what, P["dynamic"].returns)) + ["", ""]
     src += ["# " + "-" * 90, "# Stage W: the frequency or time grid.", "# " + "-" * 90, "", ""]

@@ -22,8 +22,8 @@ import sympy as sp
 from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.pycode import PythonCodePrinter
 
-from ._functions import (AtMin, Boltzmann, Causal, DegeneracyTol, ExpDiv, ExpDiv2, Keep, LevelMin,
-                         RealRoots, RootPick)
+from ._functions import (AtMin, BlockEigen, BlockRoots, Boltzmann, Causal, DegeneracyTol, ExpDiv,
+                         ExpDiv2, Keep, LevelMin, RealRoots, RootPick)
 
 __all__ = ["ArrayPrinter", "ScalarPrinter", "freeze_constants", "DIGITS"]
 
@@ -102,6 +102,24 @@ class _ProgramPrinting:
 
     def _print_RealRoots(self, expr: RealRoots) -> str:
         return self._helper("realroots", *expr.args)
+
+    def _print_BlockRoots(self, expr: BlockRoots) -> str:
+        deg, n_other = int(expr.args[0]), int(expr.args[1])
+        others = "(" + "".join(f"{self._print(o)}, " for o in expr.args[2:2 + n_other]) + ")"
+        entries = "(" + "".join(f"{self._print(e)}, " for e in expr.args[2 + n_other:]) + ")"
+        return f"_blockroots{self._suffix}({deg}, {others}, {entries})"
+
+    def _print_BlockEigen(self, expr: BlockEigen) -> str:
+        deg, n_other, n_R = (int(x) for x in expr.args[:3])
+        rest = expr.args[3:]
+        others, rest = rest[:n_other], rest[n_other:]
+        R, Rinv = rest[len(rest) - 2 * n_R:len(rest) - n_R], rest[len(rest) - n_R:]
+        entries = rest[:len(rest) - 2 * n_R]
+
+        def tup(xs) -> str:
+            return "(" + "".join(f"{self._print(x)}, " for x in xs) + ")"
+        return (f"_blockeig{self._suffix}({deg}, {tup(others)}, {tup(entries)}, {tup(R)}, "
+                f"{tup(Rinv)})")
 
     def _print_RootPick(self, expr: RootPick) -> str:
         roots, k = expr.args

@@ -6,7 +6,12 @@ implicit roots. The emitted evaluator solves that factor numerically at every ev
 (only that block: the other levels stay closed-form), then evaluates the exact weights, which
 are rational functions of the roots and the parameters.
 
-Method (vectorised over the evaluation points): the cubic is made monic and depressed,
+Method (vectorised over the evaluation points): the roots are the eigenvalues of the block's
+matrix (``numpy.linalg.eigvals`` on a stack of small matrices), leaving out the block's
+explicit eigenvalues; eigenvalues of a matrix similar to a Hermitian one are backward stable,
+accurate to a few ulps of its norm even where two roots nearly coincide, where the roots of the
+polynomial itself are good to about the square root of the rounding error only. Fallback, when
+no block matrix is at hand: the cubic is made monic and depressed,
 :math:`E = t - a/3`, :math:`t^3 + pt + q = 0`; its three real roots are
 :math:`t_k = m\cos(\phi - 2\pi k/3)` with :math:`m = 2\sqrt{-p/3}`,
 :math:`\cos 3\phi = -4q/m^3` (Viete's trigonometric form, exact for real roots, no complex
@@ -48,4 +53,98 @@ def _realroots_a(c0, c1, c2, c3):
 
 def _realroots_s(c0, c1, c2, c3):
     return tuple(float(r) for r in _realroots_a(float(c0), float(c1), float(c2), float(c3)))
+
+
+def _blockroots_a(deg, others, entries):
+    """The deg roots of a block's parametric factor, ascending: eigenvalues of the block matrix
+    (row-major entries) without, at each point, the one nearest to each explicit eigenvalue."""
+    n = math.isqrt(len(entries))
+    arrays = numpy.broadcast_arrays(*[numpy.asarray(e) for e in entries])
+    M = numpy.stack(arrays, axis=-1).reshape(arrays[0].shape + (n, n))
+    bad = ~numpy.isfinite(M).all(axis=(-2, -1))
+    if bad.any():                    # a removable singularity: the caller steps off it
+        M = numpy.where(bad[..., None, None], 0.0, M)
+    ev = numpy.sort(numpy.linalg.eigvals(M).real, axis=-1)
+    for other in others:
+        o = numpy.asarray(other, dtype=float)[..., None]
+        nearest = numpy.argmin(numpy.abs(ev - o), axis=-1)[..., None]
+        keep = numpy.ones(ev.shape, dtype=bool)
+        numpy.put_along_axis(keep, nearest, False, axis=-1)
+        ev = ev[keep].reshape(ev.shape[:-1] + (ev.shape[-1] - 1,))
+    ev = numpy.where(bad[..., None], numpy.nan, ev)
+    return tuple(numpy.moveaxis(ev, -1, 0)[:deg])
+
+
+def _blockeig_a(deg, others, entries, R, Rinv):
+    """A semi-closed block diagonalised at every point: its deg implicit levels, ascending,
+    then the n*n entries of each one's projector in the block's local basis (R u u^+ R^-1)."""
+    n = math.isqrt(len(entries))
+    arrays = numpy.broadcast_arrays(*[numpy.asarray(e) for e in entries])
+    M = numpy.stack(arrays, axis=-1).reshape(arrays[0].shape + (n, n))
+    bad = ~numpy.isfinite(M).all(axis=(-2, -1))
+    if bad.any():                    # a removable singularity: the caller steps off it
+        M = numpy.where(bad[..., None, None], 0.0, M)
+    if R:
+        Rm = numpy.array(R).reshape(n, n)
+        M = numpy.array(Rinv).reshape(n, n) @ M @ Rm
+    H = 0.5 * (M + numpy.conj(numpy.swapaxes(M, -1, -2)))
+    ev, U = numpy.linalg.eigh(H)
+    free = numpy.ones(ev.shape, dtype=bool)
+    for other in others:
+        o = numpy.asarray(other, dtype=float)[..., None]
+        nearest = numpy.argmin(numpy.where(free, numpy.abs(ev - o), numpy.inf), axis=-1)
+        numpy.put_along_axis(free, nearest[..., None], False, axis=-1)
+    # Indices of the implicit levels: the free ones, ascending (eigh sorts ascending).
+    order = numpy.argsort(~free, axis=-1, kind="stable")[..., :deg]
+    roots = numpy.take_along_axis(ev, order, axis=-1)
+    out = [numpy.where(bad, numpy.nan, roots[..., k]) for k in range(deg)]
+    real = not numpy.iscomplexobj(H)
+    for k in range(deg):
+        u = numpy.take_along_axis(U, order[..., None, k:k + 1], axis=-1)[..., 0]
+        P = u[..., :, None] * numpy.conj(u[..., None, :])
+        if R:
+            P = Rm @ P @ numpy.array(Rinv).reshape(n, n)
+        if real:
+            P = P.real
+        out += [P[..., i, j] for i in range(n) for j in range(n)]
+    return tuple(out)
+
+
+def _blockeig_s(deg, others, entries, R, Rinv):
+    return tuple(v.item() for v in _blockeig_a(deg, others, entries, R, Rinv))
+
+
+#: Relative spacing of two implicit levels below which the Jacobian of the exact weights
+#: (rational in the roots, root differences squared in the denominator) loses more than about
+#: 1e-8 of relative accuracy; there central differences of the stable values are used.
+_CLOSE_LEVELS = 1e-4
+#: Relative step of those central differences (truncation ~1e-12, rounding ~1e-10).
+_FD_STEP = 1e-6
+
+
+def _semi_closed_jacobian(J, value, T, params, energies, implicit):
+    """J where the implicit levels are well apart; central differences of value elsewhere."""
+    E = energies(*params)
+    Ei = E[..., list(implicit)]
+    scale = numpy.maximum(1.0, numpy.max(numpy.abs(E), axis=-1))
+    gaps = numpy.abs(Ei[..., :, None] - Ei[..., None, :])
+    gaps = gaps + numpy.where(numpy.eye(len(implicit), dtype=bool), numpy.inf, 0.0)
+    close = numpy.min(gaps, axis=(-2, -1)) < _CLOSE_LEVELS * scale
+    if not numpy.any(close):
+        return J
+    cols = []
+    for i, p in enumerate(params):
+        step = _FD_STEP * (1.0 + numpy.abs(p))
+        up = list(params)
+        down = list(params)
+        up[i] = p + step
+        down[i] = p - step
+        cols.append((numpy.asarray(value(T, *up)) - numpy.asarray(value(T, *down))) / (2 * step))
+    fd = numpy.stack(numpy.broadcast_arrays(*cols), axis=-1)
+    close = numpy.broadcast_to(close, numpy.shape(J)[:-1])
+    return numpy.where(close[..., None], fd, J)
+
+
+def _blockroots_s(deg, others, entries):
+    return tuple(float(r) for r in _blockroots_a(deg, others, entries))
 '''

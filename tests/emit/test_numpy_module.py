@@ -464,3 +464,36 @@ def test_generation_is_deterministic_across_hash_seeds():
                           text=True, env=env, timeout=120)
     assert proc.returncode == 0, proc.stderr
     assert proc.stdout.strip() == hashlib.sha256(source("triangle_s0x").encode()).hexdigest()
+
+
+@pytest.mark.parametrize("params", [
+    {"D": 1.0, "h": 1.0, "hx": 1e-9},      # two roots of the cubic 1e-9 apart
+    {"D": 1.0, "h": 1.0, "hx": 0.0},       # an exact double root
+    {"D": 1.0, "h": 0.0, "hx": 1e-8},      # zero field: a rational root and a close neighbour
+    {"D": 0.3, "h": -0.3, "hx": 1e-10},
+    {"D": -2.0, "h": 0.7, "hx": 1.3},
+])
+def test_semi_closed_block_is_accurate_where_its_levels_nearly_coincide(params):
+    # The value functions diagonalise the block numerically (symresp/emit/_eigen.py); the
+    # exact weights, rational in the roots with root differences in the denominator, would
+    # lose every digit here.
+    case, mod = CASES["tilted_field"], module("tilted_field")
+    args = [params[n] for n in mod.PARAMETERS]
+    T = 0.5
+    H, A, B, ref = _reference(case, params, T)
+    _assert_close(mod.chi_isothermal(T, *args), ref.isothermal, "isothermal")
+    _assert_close(mod.chi_isolated(T, *args), ref.isolated, "isolated")
+    _assert_close(mod.chi_omega(OMEGA, T, *args, eta=ETA), ref.frequency(OMEGA, ETA), "chi(omega)")
+    _assert_close(mod.chi_time(TIMES, T, *args), ref.time(TIMES), "chi(t)")
+    # The Jacobian there: central differences of the stable values (emit/_runtime_roots.py).
+    jac = mod.jacobian_static(T, *args)
+    for i in range(len(args)):
+        up, down = list(args), list(args)
+        up[i] += FD_STEP
+        down[i] -= FD_STEP
+        fd = (mod.chi_isothermal(T, *up) - mod.chi_isothermal(T, *down)) / (2 * FD_STEP)
+        assert abs(jac[i] - fd) <= FD_RTOL * max(1.0, abs(fd)), (i, jac[i], fd)
+    # Array parameters go through the same diagonalisation, point by point.
+    Ts = np.array([0.3, 0.5, 2.0])
+    expected = [numeric.static_isothermal(H, A, B, 1 / x) for x in Ts]
+    _assert_close(mod.chi_isothermal(Ts, *[np.full(3, a) for a in args]), expected, "arrays")

@@ -1,0 +1,211 @@
+r"""Semi-closed blocks diagonalised numerically inside the evaluator (layer: emit).
+
+Owns :class:`EigenBlock` and :func:`eigen_plan`. Imports sympy, mpmath, :mod:`symresp.algebra`,
+:mod:`symresp.response`, :mod:`symresp.spectrum` and :mod:`._plan`.
+
+A block whose characteristic polynomial has an irreducible cubic factor with
+parameter-dependent coefficients has implicit levels (``LevelRoot``). Its exact weights are
+rational functions of the roots with the root differences :math:`\lambda_a - \lambda_b` in
+the denominator: evaluated in floating point they lose all digits where two roots nearly
+coincide (at zero field, say), although the response itself is smooth there. So the value
+functions of an emitted module diagonalise that block numerically at every point, and only
+that block:
+
+* the block matrix :math:`M` (in the engine's local basis, where it may be a similarity
+  transform of a Hermitian matrix: diagonal rescaling of spin matrix elements, or a symmetry
+  sector) is brought to Hermitian form :math:`H_s = R^{-1} M R` with constant :math:`R`
+  (:math:`R = D^{-1}` for a rescaling :math:`D`, :math:`R = G^{-1/2}` with the Gram matrix
+  :math:`G = V^TV` of a sector basis), and ``numpy.linalg.eigh`` gives eigenvalues and
+  orthonormal eigenvectors;
+* at each point the eigenvalue nearest to each explicit level of the block is set aside; the
+  rest, ascending, are the implicit levels :math:`k = 0, 1, \dots` (the order of
+  ``LevelRoot(k, ...)``), with the local projectors :math:`P = R\,uu^\dagger R^{-1}`;
+* every weight that involves an implicit level is written as a trace,
+  :math:`W_{ab} = \mathrm{Tr}(P_a A_{XY} P_b B_{YX})`, with the numeric projectors as symbols
+  of the generated program and the exact projectors of the other (closed-form) levels.
+
+Near-coincident levels then cost nothing: eigenvectors inside a near-degenerate pair may
+rotate, but their contributions enter the Lehmann sums with continuous factors. The Jacobian
+keeps the exact weights and differentiates through the roots (``_plan.RootSet``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+import mpmath
+import sympy as sp
+
+from ..algebra import sparse_form
+from ..response import Derivation
+from ..spectrum import LevelRoot
+from ._plan import Pair, Plan
+
+__all__ = ["EigenBlock", "eigen_plan"]
+
+#: Digits of the constant similarity matrices R and R^-1 (printed as float literals).
+_DIGITS = 30
+
+
+@dataclass(frozen=True, slots=True)
+class EigenBlock:
+    """One semi-closed block, diagonalised at run time (see the module docstring)."""
+
+    holder: sp.Symbol                               # the tuple the runtime helper returns
+    deg: int                                        # number of implicit levels in the block
+    others: tuple[sp.Expr, ...]                     # the block's explicit eigenvalues
+    matrix: tuple[sp.Expr, ...]                     # M, row-major, in the code-safe parameters
+    R: tuple[sp.Float, ...]                         # row-major, () for the identity
+    Rinv: tuple[sp.Float, ...]
+    roots: tuple[tuple[sp.Symbol | None, int], ...]  # energy symbol (or None) of root k
+    projectors: tuple[tuple[sp.Symbol, ...], ...]   # per root k: n*n symbols of P (row-major)
+
+
+
+def _similarity(sol) -> tuple[tuple, tuple]:
+    """(R, R^-1) flat, making R^-1 M R Hermitian for the block's local basis."""
+    n = sol.block.size
+    if sol.gauge is not None:
+        g = [sp.N(sp.Abs(x), _DIGITS) for x in sol.gauge]
+        R = [sp.Float(1 / g[i] if i == j else 0, _DIGITS) for i in range(n) for j in range(n)]
+        Ri = [sp.Float(g[i] if i == j else 0, _DIGITS) for i in range(n) for j in range(n)]
+        return tuple(R), tuple(Ri)
+    sector = sol.block.sector
+    if sector is None or sector.V is None:
+        return (), ()
+    V = sector.V
+    with mpmath.workdps(_DIGITS + 10):
+        Vm = mpmath.matrix([[mpmath.mpf(int(V[i, j].p)) / int(V[i, j].q) for j in range(V.ncols())]
+                            for i in range(V.nrows())])
+        G = Vm.T * Vm
+        E, Q = mpmath.eigsy(G)
+        half = Q * mpmath.diag([mpmath.sqrt(e) for e in E]) * Q.T
+        inv_half = Q * mpmath.diag([1 / mpmath.sqrt(e) for e in E]) * Q.T
+        R = tuple(sp.Float(inv_half[i, j], _DIGITS) for i in range(n) for j in range(n))
+        Ri = tuple(sp.Float(half[i, j], _DIGITS) for i in range(n) for j in range(n))
+    return R, Ri
+
+
+def _local_projector(sol, factor: int, root: int) -> sp.Matrix:
+    nums, den = sol.alpha(factor, root)
+    P = sp.zeros(sol.block.size, sol.block.size)
+    for k, c in enumerate(nums):
+        if c != 0:
+            P += c * sol.sympy_power(k)
+    return P / den
+
+
+def _matrix(blk: dict | None, rows: int, cols: int) -> sp.Matrix:
+    M = sp.zeros(rows, cols)
+    for (i, j), v in (blk or {}).items():
+        M[i, j] = v
+    return M
+
+
+def eigen_plan(d: Derivation, plan: Plan) -> Plan:
+    """``plan`` with every quantity that involves an implicit level rewritten with numeric
+    projectors (unchanged when the derivation has no parametric implicit level)."""
+    if not plan.roots:
+        return plan
+    spec = d.spectrum
+    rename = dict(zip(plan.original, plan.parameters))
+
+    def sub(e) -> sp.Expr:
+        return sp.sympify(e).xreplace(rename)  # safe: derivation values are already sympy objects
+
+    energy_symbol = {}
+    for rs in plan.roots:
+        for sym, k in rs.picks:
+            energy_symbol[(tuple(rs.coeffs), k)] = sym
+    blocks: list[EigenBlock] = []
+    numeric: dict[int, sp.Matrix] = {}          # part index -> its projector (symbol matrix)
+    used: set = set()
+    for bi, sol in enumerate(spec.solutions):
+        implicit = [fi for fi, f in enumerate(sol.factors)
+                    if f.implicit and any(isinstance(r, LevelRoot) for r in f.roots)]
+        if not implicit:
+            continue
+        if len(implicit) > 1:
+            return plan                          # not produced by the engine (block <= 4)
+        fi = implicit[0]
+        f = sol.factors[fi]
+        n = sol.block.size
+        coeffs = tuple(sub(c) for c in f.roots[0].args[1:])
+        M = sol.powers[1].to_Matrix()
+        others = tuple(sub(r) for gi, g in enumerate(sol.factors) if gi != fi
+                       for r in g.roots for _ in range(g.multiplicity))
+        roots, projs = [], []
+        for k in range(f.degree):
+            key = (coeffs, k)
+            sym = energy_symbol.get(key) if key not in used else None
+            used.add(key)
+            roots.append((sym, k))
+            P = tuple(sp.Symbol(f"_P{bi}_{k}_{i}_{j}") for i in range(n) for j in range(n))
+            projs.append(P)
+            numeric[spec.index[(bi, fi, k)]] = sp.Matrix(n, n, P)
+        R, Ri = _similarity(sol)
+        blocks.append(EigenBlock(sp.Symbol(f"_eig{bi}"), f.degree, others,
+                                 tuple(sub(M[i, j]) for i in range(n) for j in range(n)),
+                                 R, Ri, tuple(roots), tuple(projs)))
+
+    basis = spec.structure.basis
+    As = spec.split(sparse_form(d.A, basis))
+    Bs = spec.split(sparse_form(d.B, basis))
+    explicit_P: dict[int, sp.Matrix] = {}
+
+    def projector(p: int) -> sp.Matrix:
+        if p in numeric:
+            return numeric[p]
+        if p not in explicit_P:
+            part = spec.parts[p]
+            explicit_P[p] = _local_projector(spec.solutions[part.block], part.factor, part.root)
+        return explicit_P[p]
+
+    def size(p: int) -> int:
+        return spec.solutions[spec.parts[p].block].block.size
+
+    def weight(pa: int, pb: int) -> sp.Expr:
+        """Tr(P_a A P_b B) for two parts, at least one of them numeric."""
+        X, Y = spec.parts[pa].block, spec.parts[pb].block
+        A = _matrix(As.get((X, Y)), size(pa), size(pb))
+        B = _matrix(Bs.get((Y, X)), size(pb), size(pa))
+        if A.is_zero_matrix or B.is_zero_matrix:
+            return sp.Integer(0)
+        return sub(sp.expand((projector(pa) * A * projector(pb) * B).trace()))
+
+    def expectation(Ss: dict, pa: int) -> sp.Expr:
+        X = spec.parts[pa].block
+        A = _matrix(Ss.get((X, X)), size(pa), size(pa))
+        return sub(sp.expand((projector(pa) * A).trace()))
+
+    levels = d.levels
+    touched = {a for a, lv in enumerate(levels) if any(p in numeric for p in lv.parts)}
+    # A complex Hermitian block gives complex projectors; where the exact values are real
+    # (A = B Hermitian), keep the real part (the imaginary one is rounding).
+    real = not plan.is_complex(*[p.S for p in plan.pairs], *plan.fluctuation, *plan.mean_a,
+                               *plan.mean_b)
+    complex_block = any(sp.sympify(e).has(sp.I) for eb in blocks for e in eb.matrix)  # safe: sympy objects
+    tidy = (lambda e: sp.re(e) if e != 0 else e) if (real and complex_block) else (lambda e: e)
+
+    def level_weight(a: int, b: int) -> sp.Expr:
+        return sp.Add(*[weight(pa, pb) for pa in levels[a].parts for pb in levels[b].parts])
+
+    pairs = []
+    for p in plan.pairs:
+        if p.a in touched or p.b in touched:
+            wab, wba = level_weight(p.a, p.b), level_weight(p.b, p.a)
+            pairs.append(Pair(p.a, p.b, p.w, tidy(wab + wba) if p.S != 0 else sp.Integer(0),
+                              wab - wba if p.D != 0 else sp.Integer(0)))
+        else:
+            pairs.append(p)
+    fluct, mean_a, mean_b = list(plan.fluctuation), list(plan.mean_a), list(plan.mean_b)
+    for a in touched:
+        g = levels[a].degeneracy
+        ea = sp.Add(*[expectation(As, pa) for pa in levels[a].parts])
+        eb = sp.Add(*[expectation(Bs, pa) for pa in levels[a].parts])
+        if plan.fluctuation[a] != 0:             # zero exactly stays zero
+            fluct[a] = tidy(level_weight(a, a) - ea * eb / g)
+        mean_a[a] = tidy(ea / g) if plan.mean_a[a] != 0 else sp.Integer(0)
+        mean_b[a] = tidy(eb / g) if plan.mean_b[a] != 0 else sp.Integer(0)
+    return replace(plan, pairs=tuple(pairs), fluctuation=tuple(fluct), mean_a=tuple(mean_a),
+                   mean_b=tuple(mean_b), eigen=tuple(blocks))
