@@ -1,7 +1,8 @@
 r"""Numbers from derived formulas: a tree-walking evaluator (layer: cases).
 
 Owns :func:`evaluate_precise` (mpmath, for verification) and :func:`evaluate_arrays` (numpy,
-for curves). Imports sympy, numpy, mpmath, :mod:`symresp.errors` and :mod:`symresp.spectrum`.
+for curves). Imports sympy, numpy, mpmath, :mod:`symresp.errors`, :mod:`symresp.numeric` and
+:mod:`symresp.spectrum`.
 
 Derived expressions are walked node by node; no code is generated or executed. Each distinct
 sub-expression is evaluated once per call (sympy shares equal sub-trees). Implicit levels
@@ -22,6 +23,7 @@ import sympy as sp
 from mpmath.ctx_mp import MPContext
 
 from ..errors import InputError
+from ..numeric import real_roots
 from ..spectrum import LevelRoot
 
 __all__ = ["evaluate_precise", "evaluate_arrays", "PRECISE_DIGITS"]
@@ -136,15 +138,7 @@ def _np_backend() -> _Backend:
         sp.re: np.real, sp.im: np.imag, sp.conjugate: np.conj,
     }
     def root(k: int, coeffs: list):
-        # Batched companion matrices: the roots of a Hermitian block's factor are real.
-        cs = np.broadcast_arrays(*[np.real(np.asarray(c, dtype=complex)) for c in coeffs])
-        n = len(cs) - 1
-        comp = np.zeros(cs[0].shape + (n, n))
-        for j in range(n):
-            comp[..., 0, j] = -cs[j + 1] / cs[0]
-        for j in range(1, n):
-            comp[..., j, j - 1] = 1.0
-        return np.sort(np.linalg.eigvals(comp).real, axis=-1)[..., k].astype(complex)
+        return real_roots(coeffs)[..., k].astype(complex)
 
     return _Backend(number, {sp.pi: complex(np.pi), sp.E: complex(np.e), sp.I: 1j}, functions,
                     power, root)

@@ -28,10 +28,10 @@ from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import mpmath as mp
-import numpy as np
 import sympy as sp
 
 from ..errors import InputError
+from ..numeric import real_roots
 from ..response import Derivation
 
 __all__ = [
@@ -193,15 +193,8 @@ def _level_root_mp(k, *coeffs):
 
 
 def _level_root_np(k, *coeffs):
-    """The same with numpy arrays of coefficients (batched companion matrices)."""
-    cs = np.broadcast_arrays(*[np.real(np.asarray(c, dtype=complex)) for c in coeffs])
-    n = len(cs) - 1
-    comp = np.zeros(cs[0].shape + (n, n))
-    for j in range(n):
-        comp[..., 0, j] = -cs[j + 1] / cs[0]
-    for j in range(1, n):
-        comp[..., j, j - 1] = 1.0
-    return np.sort(np.linalg.eigvals(comp).real, axis=-1)[..., int(k)]
+    """The same with numpy arrays of coefficients."""
+    return real_roots(coeffs)[..., int(k)]
 
 
 def compile_expression(expr: sp.Expr, args: Sequence[sp.Symbol], backend: str = "mpmath") -> Callable:

@@ -18,7 +18,7 @@ from __future__ import annotations
 import sympy as sp
 
 __all__ = ["Boltzmann", "ExpDiv", "ExpDiv2", "Keep", "LevelMin", "AtMin", "DegeneracyTol",
-           "Causal", "RealRoots", "BlockRoots", "BlockEigen", "RootPick", "CACHE_ONLY"]
+           "Causal", "RealRoots", "BlockEigen", "RootPick", "CACHE_ONLY"]
 
 
 class Boltzmann(sp.Function):
@@ -126,16 +126,6 @@ class RealRoots(sp.Function):
     Hermitian), solved numerically at every evaluation point; the value is a tuple, read with
     :class:`RootPick`. Only stage P (parameters) holds it, so it needs no derivative: the
     Jacobian uses :math:`\partial\lambda/\partial\theta = -f_\theta(\lambda)/f_E(\lambda)`.
-    """
-
-
-class BlockRoots(sp.Function):
-    r"""``BlockRoots(deg, n_other, others..., entries...)``: the ``deg`` roots of a semi-closed
-    block's parametric factor, ascending, as eigenvalues of the block matrix (row-major
-    ``entries``), leaving out at each point the eigenvalue nearest to each of the block's
-    ``n_other`` explicit eigenvalues ``others``. Eigenvalues of the matrix are accurate where
-    the roots of the polynomial are not (two roots close together); the value is a tuple, read
-    with :class:`RootPick`.
     """
 
 

@@ -17,6 +17,7 @@ import hashlib
 import importlib.metadata
 import linecache
 import types
+from dataclasses import replace
 
 import sympy as sp
 
@@ -404,7 +405,9 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     plan = eigen_plan(derivation, exact)
     fp = fingerprint(derivation)
     version = symresp_version()
-    P = {kind: params_program(exact if kind == "jacobian" else plan, kind)
+    # Both take the levels of semi-closed blocks from the numerically diagonalised block.
+    jac = replace(exact, eigen=plan.eigen)
+    P = {kind: params_program(jac if kind == "jacobian" else plan, kind)
          for kind in ("isothermal", "isolated", "jacobian", "dynamic")}
 
     static_vals = [p.S for p in exact.pairs] + list(exact.fluctuation) + list(exact.mean_a) + list(exact.mean_b)

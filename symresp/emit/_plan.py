@@ -89,8 +89,6 @@ class RootSet:
     holder: sp.Symbol
     coeffs: tuple[sp.Expr, ...]
     picks: tuple[tuple[sp.Symbol, int], ...]
-    matrix: tuple[sp.Expr, ...] = ()         # a block whose eigenvalues include the roots (row-major)
-    others: tuple[sp.Expr, ...] = ()         # the block's other (explicit) eigenvalues
 
     def derivative(self, root: sp.Symbol, theta: sp.Symbol) -> sp.Expr:
         r""":math:`\partial\lambda/\partial\theta = -f_\theta(\lambda)/f_E(\lambda)` at a root."""
@@ -255,7 +253,7 @@ def build_plan(d: Derivation) -> Plan:
     conv = d.convention
     # Semi-closed blocks: each implicit root becomes a symbol computed numerically per point.
     roots, rmap = _root_sets([*energies, *(e for p in pairs for e in (p.w, p.S, p.D)),
-                              *fluct, *mean_a, *mean_b], _block_matrices(d, rename))
+                              *fluct, *mean_a, *mean_b])
 
     def r(e: sp.Expr) -> sp.Expr:
         return e.xreplace(rmap) if rmap else e
@@ -268,34 +266,7 @@ def build_plan(d: Derivation) -> Plan:
                 1 if conv.prescription == "retarded" else -1, roots)
 
 
-def _block_matrices(d: Derivation, rename: dict) -> dict[tuple, tuple[tuple, tuple]]:
-    """Per parametric characteristic factor (its coefficients, renamed): the matrix of one
-    block that has it, row-major, and that block's other eigenvalues.
-
-    The evaluator finds the roots as eigenvalues of this matrix (backward stable: accurate to
-    a few ulps of the block's norm even where two roots nearly coincide, where the roots of
-    the polynomial itself are only good to the square root of the rounding error).
-    """
-    out: dict[tuple, tuple[tuple, tuple]] = {}
-    for sol in d.spectrum.solutions:
-        if sol.kind != "symbolic":
-            continue
-        for f in sol.factors:
-            if not (f.implicit and any(isinstance(r, LevelRoot) for r in f.roots)):
-                continue
-            key = tuple(sp.sympify(c).xreplace(rename) for c in f.roots[0].args[1:])  # safe: derivation values are already sympy objects
-            if key in out or sol.degree < 2:
-                continue
-            M = sol.powers[1].to_Matrix()
-            n = M.rows
-            entries = tuple(sp.sympify(M[i, j]).xreplace(rename) for i in range(n) for j in range(n))  # safe: derivation values are already sympy objects
-            others = tuple(sp.sympify(r).xreplace(rename) for g in sol.factors if g is not f  # safe: derivation values are already sympy objects
-                           for r in g.roots for _ in range(g.multiplicity))
-            out[key] = (entries, others)
-    return out
-
-
-def _root_sets(exprs: list[sp.Expr], blocks: dict) -> tuple[tuple[RootSet, ...], dict]:
+def _root_sets(exprs: list[sp.Expr]) -> tuple[tuple[RootSet, ...], dict]:
     """Symbols for the implicit roots in ``exprs``, grouped by their defining polynomial."""
     atoms: set = set()
     for e in exprs:
@@ -311,8 +282,7 @@ def _root_sets(exprs: list[sp.Expr], blocks: dict) -> tuple[tuple[RootSet, ...],
             sym = sp.Symbol(f"_lam{g}_{k}", real=True)
             rmap[a] = sym
             picks.append((sym, k))
-        matrix, others = blocks.get(coeffs, ((), ()))
-        sets.append(RootSet(sp.Symbol(f"_roots{g}"), coeffs, tuple(picks), matrix, others))
+        sets.append(RootSet(sp.Symbol(f"_roots{g}"), coeffs, tuple(picks)))
     return tuple(sets), rmap
 
 

@@ -22,8 +22,8 @@ import sympy as sp
 from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.pycode import PythonCodePrinter
 
-from ._functions import (AtMin, BlockEigen, BlockRoots, Boltzmann, Causal, DegeneracyTol, ExpDiv,
-                         ExpDiv2, Keep, LevelMin, RealRoots, RootPick)
+from ._functions import (AtMin, BlockEigen, Boltzmann, Causal, DegeneracyTol, ExpDiv, ExpDiv2, Keep,
+                         LevelMin, RealRoots, RootPick)
 
 __all__ = ["ArrayPrinter", "ScalarPrinter", "freeze_constants", "DIGITS"]
 
@@ -102,12 +102,6 @@ class _ProgramPrinting:
 
     def _print_RealRoots(self, expr: RealRoots) -> str:
         return self._helper("realroots", *expr.args)
-
-    def _print_BlockRoots(self, expr: BlockRoots) -> str:
-        deg, n_other = int(expr.args[0]), int(expr.args[1])
-        others = "(" + "".join(f"{self._print(o)}, " for o in expr.args[2:2 + n_other]) + ")"
-        entries = "(" + "".join(f"{self._print(e)}, " for e in expr.args[2 + n_other:]) + ")"
-        return f"_blockroots{self._suffix}({deg}, {others}, {entries})"
 
     def _print_BlockEigen(self, expr: BlockEigen) -> str:
         deg, n_other, n_R = (int(x) for x in expr.args[:3])

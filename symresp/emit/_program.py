@@ -24,8 +24,8 @@ from dataclasses import dataclass
 
 import sympy as sp
 
-from ._functions import (AtMin, BlockEigen, BlockRoots, Boltzmann, Causal, DegeneracyTol, ExpDiv,
-                         Keep, LevelMin, RealRoots, RootPick)
+from ._functions import (AtMin, BlockEigen, Boltzmann, Causal, DegeneracyTol, ExpDiv, Keep,
+                         LevelMin, RealRoots, RootPick)
 from ._plan import Plan
 from ._printers import freeze_constants
 
@@ -101,12 +101,8 @@ def _root_lines(plan: Plan) -> list[tuple[sp.Symbol, sp.Expr]]:
                 lines += [(x, RootPick(eb.holder, eb.deg + k * nn + i)) for i, x in enumerate(syms)]
         return lines
     for rs in plan.roots:
-        if rs.matrix:
-            value = BlockRoots(len(rs.coeffs) - 1, len(rs.others), *[_freeze(o) for o in rs.others],
-                               *[_freeze(e) for e in rs.matrix])
-        else:
-            value = RealRoots(*[_freeze(c) for c in rs.coeffs])
-        lines.append((rs.holder, value))
+        # Fallback without a diagonalised block: the roots of the factor itself.
+        lines.append((rs.holder, RealRoots(*[_freeze(c) for c in rs.coeffs])))
         lines += [(sym, RootPick(rs.holder, k)) for sym, k in rs.picks]
     return lines
 

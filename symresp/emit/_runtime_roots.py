@@ -2,21 +2,21 @@ r"""Runtime support for semi-closed blocks, copied into emitted modules that nee
 
 A block whose characteristic polynomial has an irreducible cubic factor with
 parameter-dependent coefficients has no closed-form levels; the engine keeps them as exact
-implicit roots. The emitted evaluator solves that factor numerically at every evaluation point
-(only that block: the other levels stay closed-form), then evaluates the exact weights, which
-are rational functions of the roots and the parameters.
+implicit roots. The emitted evaluator diagonalises that block at every evaluation point (only
+that block: the other levels stay closed-form), see :mod:`symresp.emit._eigen`:
 
-Method (vectorised over the evaluation points): the roots are the eigenvalues of the block's
-matrix (``numpy.linalg.eigvals`` on a stack of small matrices), leaving out the block's
-explicit eigenvalues; eigenvalues of a matrix similar to a Hermitian one are backward stable,
-accurate to a few ulps of its norm even where two roots nearly coincide, where the roots of the
-polynomial itself are good to about the square root of the rounding error only. Fallback, when
-no block matrix is at hand: the cubic is made monic and depressed,
-:math:`E = t - a/3`, :math:`t^3 + pt + q = 0`; its three real roots are
-:math:`t_k = m\cos(\phi - 2\pi k/3)` with :math:`m = 2\sqrt{-p/3}`,
-:math:`\cos 3\phi = -4q/m^3` (Viete's trigonometric form, exact for real roots, no complex
-arithmetic); two Newton steps on the undepressed cubic then restore full relative accuracy lost
-in the depression, and the roots are sorted ascending (the order of ``LevelRoot(k, ...)``).
+* ``_blockeig_a``: the block in Hermitian form, ``numpy.linalg.eigh`` on the stack of small
+  matrices, the eigenvalue nearest each explicit level of the block set aside, the rest
+  ascending (the order of ``LevelRoot(k, ...)``), and each one's projector in the block's
+  local basis. Eigenvalues and the Lehmann sums built from these projectors are backward
+  stable, also where two levels nearly coincide;
+* ``_semi_closed_jacobian``: the exact Jacobian (differentiated through the roots) where the
+  implicit levels are apart, central differences of the stable values where they are not;
+* ``_realroots_a``: fallback without a block matrix (not produced by the engine today): the
+  cubic made monic and depressed, :math:`E = t - a/3`, :math:`t^3 + pt + q = 0`, its three
+  real roots :math:`t_k = m\cos(\phi - 2\pi k/3)` with :math:`m = 2\sqrt{-p/3}`,
+  :math:`\cos 3\phi = -4q/m^3` (Viete's trigonometric form), two Newton steps on the
+  undepressed cubic, sorted ascending.
 
 Imports: nothing (a text constant).
 """
@@ -53,26 +53,6 @@ def _realroots_a(c0, c1, c2, c3):
 
 def _realroots_s(c0, c1, c2, c3):
     return tuple(float(r) for r in _realroots_a(float(c0), float(c1), float(c2), float(c3)))
-
-
-def _blockroots_a(deg, others, entries):
-    """The deg roots of a block's parametric factor, ascending: eigenvalues of the block matrix
-    (row-major entries) without, at each point, the one nearest to each explicit eigenvalue."""
-    n = math.isqrt(len(entries))
-    arrays = numpy.broadcast_arrays(*[numpy.asarray(e) for e in entries])
-    M = numpy.stack(arrays, axis=-1).reshape(arrays[0].shape + (n, n))
-    bad = ~numpy.isfinite(M).all(axis=(-2, -1))
-    if bad.any():                    # a removable singularity: the caller steps off it
-        M = numpy.where(bad[..., None, None], 0.0, M)
-    ev = numpy.sort(numpy.linalg.eigvals(M).real, axis=-1)
-    for other in others:
-        o = numpy.asarray(other, dtype=float)[..., None]
-        nearest = numpy.argmin(numpy.abs(ev - o), axis=-1)[..., None]
-        keep = numpy.ones(ev.shape, dtype=bool)
-        numpy.put_along_axis(keep, nearest, False, axis=-1)
-        ev = ev[keep].reshape(ev.shape[:-1] + (ev.shape[-1] - 1,))
-    ev = numpy.where(bad[..., None], numpy.nan, ev)
-    return tuple(numpy.moveaxis(ev, -1, 0)[:deg])
 
 
 def _blockeig_a(deg, others, entries, R, Rinv):
@@ -143,8 +123,4 @@ def _semi_closed_jacobian(J, value, T, params, energies, implicit):
     fd = numpy.stack(numpy.broadcast_arrays(*cols), axis=-1)
     close = numpy.broadcast_to(close, numpy.shape(J)[:-1])
     return numpy.where(close[..., None], fd, J)
-
-
-def _blockroots_s(deg, others, entries):
-    return tuple(float(r) for r in _blockroots_a(deg, others, entries))
 '''

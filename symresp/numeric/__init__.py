@@ -20,6 +20,7 @@ from ._reference import (
     static_isolated,
     static_isothermal,
 )
+from ._roots import real_roots
 
 __all__ = [
     "Eigensystem",
@@ -32,6 +33,7 @@ __all__ = [
     "log_partition_function",
     "partition_function",
     "poles",
+    "real_roots",
     "solve",
     "spectral_function",
     "static_isolated",
