@@ -28,6 +28,7 @@ matrix needed a diagonal rescaling to remove square roots (spins >= 3/2) are not
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 from fractions import Fraction
@@ -211,8 +212,9 @@ def transform(blk: dict, left: flint.fmpq_mat | None, right: flint.fmpq_mat | No
 
 
 # ----------------------------------------------------------------------------- projectors
-def _cyclotomic_idempotents(N: int) -> list[tuple[int, list[Fraction]]]:
-    """(d, coefficients of e_d(x) low -> high) for each d | N."""
+@functools.lru_cache(maxsize=32)
+def _cyclotomic_idempotents(N: int) -> tuple[tuple[int, tuple[Fraction, ...]], ...]:
+    """(d, coefficients of e_d(x) low -> high) for each d | N (a pure function of N, cached)."""
     x = sp.Symbol("x")
     full = sp.Poly(x**N - 1, x, domain=sp.QQ)
     out = []
@@ -221,9 +223,9 @@ def _cyclotomic_idempotents(N: int) -> list[tuple[int, list[Fraction]]]:
         rest = full.exquo(phi)
         inv = rest.rem(phi).invert(phi)
         e = (rest * inv).rem(full)
-        coeffs = [Fraction(int(c.p), int(c.q)) for c in reversed(e.all_coeffs())]
+        coeffs = tuple(Fraction(int(c.p), int(c.q)) for c in reversed(e.all_coeffs()))
         out.append((d, coeffs))
-    return out
+    return tuple(out)
 
 
 def _momentum_label(d: int, N: int) -> sp.Expr:
@@ -265,7 +267,7 @@ def _column_basis(P: flint.fmpq_mat) -> tuple[flint.fmpq_mat, flint.fmpq_mat] | 
     return V, dual
 
 
-def _polynomial_of(M: flint.fmpq_mat, coeffs: list[Fraction]) -> flint.fmpq_mat:
+def _polynomial_of(M: flint.fmpq_mat, coeffs: tuple[Fraction, ...]) -> flint.fmpq_mat:
     n = M.nrows()
     out = flint.fmpq_mat(n, n)
     for c in reversed(coeffs):
