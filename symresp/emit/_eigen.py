@@ -63,22 +63,27 @@ class EigenBlock:
 
 
 def _similarity(sol) -> tuple[tuple, tuple]:
-    """(R, R^-1) flat, making R^-1 M R Hermitian for the block's local basis."""
-    n = sol.block.size
-    if sol.gauge is not None:
-        g = [sp.N(sp.Abs(x), _DIGITS) for x in sol.gauge]
-        R = [sp.Float(1 / g[i] if i == j else 0, _DIGITS) for i in range(n) for j in range(n)]
-        Ri = [sp.Float(g[i] if i == j else 0, _DIGITS) for i in range(n) for j in range(n)]
-        return tuple(R), tuple(Ri)
+    """(R, R^-1) flat, making R^-1 M R Hermitian for the block's local basis.
+
+    The local coordinates c of a block are x = L c in the product basis, with L = D V: the
+    solver's diagonal rescaling D (or 1) and a sector basis V (or 1). With the Gram matrix
+    G = L^T L, R = G^(-1/2) gives R^-1 M R = G^(-1/2) L^T H L G^(-1/2), Hermitian.
+    """
     sector = sol.block.sector
-    if sector is None or sector.V is None:
+    V = sector.V if sector is not None and sector.V is not None else None
+    if sol.gauge is None and V is None:
         return (), ()
-    V = sector.V
+    n = sol.block.size
     with mpmath.workdps(_DIGITS + 10):
-        Vm = mpmath.matrix([[mpmath.mpf(int(V[i, j].p)) / int(V[i, j].q) for j in range(V.ncols())]
-                            for i in range(V.nrows())])
-        G = Vm.T * Vm
-        E, Q = mpmath.eigsy(G)
+        rows = len(sol.gauge) if sol.gauge is not None else V.nrows()
+        g = [mpmath.mpf(1)] * rows if sol.gauge is None else \
+            [mpmath.mpmathify(sp.N(x, _DIGITS + 10)) for x in sol.gauge]
+        if V is None:
+            L = mpmath.diag(g)
+        else:
+            L = mpmath.matrix([[g[i] * mpmath.mpf(int(V[i, j].p)) / int(V[i, j].q)
+                                for j in range(V.ncols())] for i in range(V.nrows())])
+        E, Q = mpmath.eigsy(L.T * L)
         half = Q * mpmath.diag([mpmath.sqrt(e) for e in E]) * Q.T
         inv_half = Q * mpmath.diag([1 / mpmath.sqrt(e) for e in E]) * Q.T
         R = tuple(sp.Float(inv_half[i, j], _DIGITS) for i in range(n) for j in range(n))

@@ -865,9 +865,11 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
     for b in structure.blocks:
         Hb = local[b.index]
         gauge = _gauge(Hb, b.size)
+        if gauge is not None:
+            Hb = {(i, j): sp.expand(v * gauge[j] / gauge[i]) for (i, j), v in Hb.items()}
         sectors = None
-        if gauge is None and sym is not None and sym.names:
-            sectors = split_block(b.positions, sym)
+        if sym is not None and sym.names:
+            sectors = split_block(b.positions, sym, Hb, gauge)
         if sectors is not None and sectors[0].V is None:
             pieces = [(Block(len(sols), b.positions, b.labels + sectors[0].labels,
                              parent=b.index), Hb)]
@@ -885,8 +887,6 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
                     f"limit {max_block} for exact solution; restrict to a sector or raise "
                     f"Budget(max_block=...)"
                 )
-            if gauge is not None:
-                Hs = {(i, j): sp.expand(v * gauge[j] / gauge[i]) for (i, j), v in Hs.items()}
             sf = _scaled_form(Hs, blk.size)
             if sf is not None:
                 sol = _solve_scaled(blk, *sf, clock)

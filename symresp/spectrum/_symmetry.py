@@ -60,7 +60,7 @@ class Symmetries:
 
     translation: tuple[int, ...] | None      # position -> position of the shifted state
     order: int                               # N, the number of sites
-    total_spin: dict | None                  # S^2 with exact fraction entries, or None
+    total_spin: dict | None                  # S^2 with exact entries (sympy), or None
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -110,24 +110,27 @@ def _rational_sqrt(x: Fraction) -> Fraction | None:
     return Fraction(p, q) if p * p == x.numerator and q * q == x.denominator else None
 
 
-def _total_spin(basis: Basis, H: SparseForm) -> dict[tuple[int, int], Fraction] | None:
-    r"""S^2 on ``basis`` if all sites are spins, its entries rational and [H, S^2] = 0.
+def _total_spin(basis: Basis) -> dict[tuple[int, int], sp.Expr] | None:
+    r"""S^2 on ``basis`` if all sites are spins (exact entries; surds for mixed or large spins).
 
-    :math:`S^2 = \sum_i S_i(S_i+1) + 2\sum_{i<j} S^z_iS^z_j + \sum_{i \ne j} S^+_iS^-_j`, in
-    exact fractions (local index k has m = S - k).
+    :math:`S^2 = \sum_i S_i(S_i+1) + 2\sum_{i<j} S^z_iS^z_j + \sum_{i \ne j} S^+_iS^-_j`
+    (local index k has m = S - k). Whether H conserves it is decided block by block, in the
+    block's rescaled basis, where the entries are rational (:func:`split_block`).
     """
     sites = basis.sites
     if len(sites) < 2 or any(s.kind != "spin" for s in sites):
         return None
     spins = [Fraction(int(s.spin.p), int(s.spin.q)) for s in sites]
     index = {st: i for i, st in enumerate(basis.states)}
-    S2: dict[tuple[int, int], Fraction] = {}
+    S2: dict[tuple[int, int], sp.Expr] = {}
     const = sum((S * (S + 1) for S in spins), Fraction(0))
     n = len(sites)
+    amp: dict[Fraction, sp.Expr] = {}
     for r, st in enumerate(basis.states):
         m = [S - k for S, k in zip(spins, st)]
         total = sum(m, Fraction(0))
-        S2[(r, r)] = const + total * total - sum((x * x for x in m), Fraction(0))
+        d = const + total * total - sum((x * x for x in m), Fraction(0))
+        S2[(r, r)] = sp.Rational(d.numerator, d.denominator)
         for i in range(n):
             if m[i] + 1 > spins[i]:
                 continue
@@ -135,27 +138,19 @@ def _total_spin(basis: Basis, H: SparseForm) -> dict[tuple[int, int], Fraction] 
             for j in range(n):
                 if j == i or m[j] - 1 < -spins[j]:
                     continue
-                amp = _rational_sqrt(up * (spins[j] * (spins[j] + 1) - m[j] * (m[j] - 1)))
-                if amp is None:
-                    return None            # spins >= 3/2: surds in S^2 (not split)
+                sq = up * (spins[j] * (spins[j] + 1) - m[j] * (m[j] - 1))
+                if sq not in amp:
+                    root = _rational_sqrt(sq)
+                    amp[sq] = (sp.Rational(root.numerator, root.denominator) if root is not None
+                               else sp.sqrt(sp.Rational(sq.numerator, sq.denominator)))
                 new = list(st)
                 new[i] -= 1
                 new[j] += 1
                 c = index.get(tuple(new))
                 if c is None:
                     return None
-                S2[(c, r)] = S2.get((c, r), Fraction(0)) + amp
-    S2 = {k: v for k, v in S2.items() if v}
-    rows: dict[int, list[tuple[int, Fraction]]] = {}
-    for (r, c), v in S2.items():
-        rows.setdefault(r, []).append((c, v))
-    for R in decompose_entries(H).values():
-        Rrows: dict[int, list[tuple[int, Fraction]]] = {}
-        for (r, c), v in R.items():
-            Rrows.setdefault(r, []).append((c, v))
-        if _product(R, rows) != _product(S2, Rrows):
-            return None                    # H does not conserve the total spin
-    return S2
+                S2[(c, r)] = S2.get((c, r), sp.Integer(0)) + amp[sq]
+    return {k: v for k, v in S2.items() if v != 0}
 
 
 def _product(X: dict, Yrows: dict) -> dict:
@@ -169,7 +164,7 @@ def _product(X: dict, Yrows: dict) -> dict:
 
 def find_symmetries(basis: Basis, H: SparseForm) -> Symmetries:
     """Translation and total-spin symmetry of H on ``basis`` (None where absent)."""
-    return Symmetries(_translation(basis, H), len(basis.sites), _total_spin(basis, H))
+    return Symmetries(_translation(basis, H), len(basis.sites), _total_spin(basis))
 
 
 def decompose_entries(blk: dict) -> dict[sp.Expr, dict[tuple[int, int], Fraction]]:
@@ -278,8 +273,32 @@ def _polynomial_of(M: flint.fmpq_mat, coeffs: tuple[Fraction, ...]) -> flint.fmp
     return out
 
 
-def split_block(positions: tuple[int, ...], sym: Symmetries) -> list[Sector] | None:
-    """Sectors of the block on ``positions``; None when no symmetry splits it."""
+def _gauged(value: sp.Expr, gauge, i: int, j: int) -> Fraction | None:
+    """Entry (i, j) of D^-1 X D for the block's diagonal rescaling D, if rational."""
+    v = value if gauge is None else sp.radsimp(value * gauge[j] / gauge[i])
+    if not v.is_Rational:
+        return None
+    return Fraction(int(v.p), int(v.q))
+
+
+def _commutes(S: flint.fmpq_mat, Hb: dict) -> bool:
+    """[H_block, S] = 0, term by term of the block matrix (exact)."""
+    n = S.nrows()
+    for comp in decompose_entries(Hb).values():
+        R = _sparse_fmpq(comp, n, n)
+        if R * S != S * R:
+            return False
+    return True
+
+
+def split_block(positions: tuple[int, ...], sym: Symmetries, Hb: dict,
+                gauge: list | None = None) -> list[Sector] | None:
+    """Sectors of the block on ``positions``; None when no symmetry splits or labels it.
+
+    ``Hb`` is the block matrix in the block's local basis, rescaled by ``gauge`` (the
+    diagonal D of the solver, or None): the symmetry operators are taken in the same basis,
+    D^-1 X D, and used only where they are rational there.
+    """
     n = len(positions)
     local = {p: i for i, p in enumerate(positions)}
     sectors: list[tuple[tuple, flint.fmpq_mat, flint.fmpq_mat]] = []
@@ -287,21 +306,39 @@ def split_block(positions: tuple[int, ...], sym: Symmetries) -> list[Sector] | N
     for i in range(n):
         identity[i, i] = 1
     sectors.append(((), identity, identity))
+    T = None
     if sym.translation is not None and all(sym.translation[p] in local for p in positions):
         T = flint.fmpq_mat(n, n)
         for p in positions:
-            T[local[sym.translation[p]], local[p]] = 1
+            i, j = local[sym.translation[p]], local[p]
+            v = _gauged(sp.Integer(1), gauge, i, j)
+            if v is None:
+                T = None
+                break
+            T[i, j] = flint.fmpq(v.numerator, v.denominator)
+    if T is not None:
         new = []
         for d, e in _cyclotomic_idempotents(sym.order):
             vd = _column_basis(_polynomial_of(T, e))
             if vd is not None:
                 new.append(((("k", _momentum_label(d, sym.order)),), *vd))
         sectors = new
+    S2 = None
     if sym.total_spin is not None:
         S2 = flint.fmpq_mat(n, n)
         for (r, c), v in sym.total_spin.items():
-            if r in local and c in local:
-                S2[local[r], local[c]] = _q(v)
+            if (r in local) != (c in local):
+                S2 = None                  # S^2 leaves the block: not a label of its states
+                break
+            if r in local:
+                q = _gauged(v, gauge, local[r], local[c])
+                if q is None:
+                    S2 = None
+                    break
+                S2[local[r], local[c]] = flint.fmpq(q.numerator, q.denominator)
+        if S2 is not None and not _commutes(S2, Hb):
+            S2 = None                      # H does not conserve the total spin here
+    if S2 is not None:
         new = []
         for labels, V, dual in sectors:
             S2s = dual * S2 * V

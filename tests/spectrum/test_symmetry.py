@@ -177,21 +177,44 @@ def test_broken_translation_is_not_used():
     assert "ring translation" not in text and "total spin" in text
 
 
-def test_spin_three_halves_blocks_needing_a_rescaling_are_not_split():
-    # Spins 3/2 carry surds in S^+ S^-: no total-spin sectors, and blocks that need the
-    # diagonal rescaling stay whole (docs/engine.md); the values stay exact.
+def test_spin_three_halves_are_split_in_the_rescaled_basis():
+    # Spins 3/2 carry surds in S^+ S^-; in the solver's rescaled basis S^2 and the translation
+    # are rational again, so the blocks are split there (docs/engine.md); values stay exact.
     p = {"J": 0.8, "h": 0.3}
     r = _check(3, Fraction(3, 2), *TOTAL_X, p, T=1.1)
     spec = r.derivation.spectrum
-    assert "total spin" not in spec.describe()
-    assert all(s.block.sector is None for s in spec.solutions if s.gauge is not None)
+    assert "k (ring translation)" in spec.describe() and "S (total spin)" in spec.describe()
+    assert any(s.gauge is not None and s.block.sector is not None for s in spec.solutions)
+
+
+def test_mixed_spins_get_total_spin_sectors():
+    # A spin 1/2 - spin 1 - spin 1/2 - spin 1 ring: no translation by one site, but S^2 is
+    # conserved; its sectors are rational in the rescaled basis.
+    sites = [sr.spin("a1", sp.Rational(1, 2)), sr.spin("b1", 1), sr.spin("a2", sp.Rational(1, 2)),
+             sr.spin("b2", 1)]
+    H = J * sum((sites[i].vec @ sites[(i + 1) % 4].vec for i in range(4)), sp.Integer(0)) \
+        + h * sum((x.z for x in sites), sp.Integer(0))
+    model = sr.Model(H)
+    r = model.response(sites[1].z)
+    text = r.derivation.spectrum.describe()
+    assert "S (total spin)" in text and "ring translation" not in text
+    p = {"J": 1.0, "h": 0.2}
+    ref = r.reference(params=p, T=0.7)
+    iso_T, iso, _ = _numbers(r.derivation, p, 0.7, 0.1j)
+    assert_close(iso_T, ref.isothermal, what="isothermal")
+    assert_close(iso, ref.isolated, what="isolated")
 
 
 def test_exchange_anisotropy_breaks_total_spin_only():
     p = {"J": 1.0, "h": 0.2, "D": 0.45}
     r = _check(4, Fraction(1, 2), *SITE_Z, p, T=0.8, anisotropy=True)
     text = r.derivation.spectrum.describe()
-    assert "ring translation" in text and "total spin" not in text
+    assert "ring translation" in text
+    # S^2 is conserved only where the Ising term is constant (S^z = +-1, +-2 of the 4-ring),
+    # not in S^z = 0.
+    for sol in r.derivation.spectrum.solutions:
+        labels = dict(sol.block.labels)
+        assert ("S" in labels) == (labels["Sz"] != 0), labels
 
 
 @settings(max_examples=10, deadline=None)
