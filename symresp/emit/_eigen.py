@@ -53,6 +53,7 @@ class EigenBlock:
 
     holder: sp.Symbol                               # the tuple the runtime helper returns
     deg: int                                        # number of implicit levels in the block
+    mult: int                                       # states per implicit level
     others: tuple[sp.Expr, ...]                     # the block's explicit eigenvalues
     matrix: tuple[sp.Expr, ...]                     # M, row-major, in the code-safe parameters
     R: tuple[sp.Float, ...]                         # row-major, () for the identity
@@ -131,7 +132,7 @@ def eigen_plan(d: Derivation, plan: Plan) -> Plan:
         if not implicit:
             continue
         if len(implicit) > 1:
-            return plan                          # not produced by the engine (block <= 4)
+            return plan                          # not produced by the engine (one cubic per block)
         fi = implicit[0]
         f = sol.factors[fi]
         n = sol.block.size
@@ -149,7 +150,7 @@ def eigen_plan(d: Derivation, plan: Plan) -> Plan:
             projs.append(P)
             numeric[spec.index[(bi, fi, k)]] = sp.Matrix(n, n, P)
         R, Ri = _similarity(sol)
-        blocks.append(EigenBlock(sp.Symbol(f"_eig{bi}"), f.degree, others,
+        blocks.append(EigenBlock(sp.Symbol(f"_eig{bi}"), f.degree, f.multiplicity, others,
                                  tuple(sub(M[i, j]) for i in range(n) for j in range(n)),
                                  R, Ri, tuple(roots), tuple(projs)))
 

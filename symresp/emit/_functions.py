@@ -130,10 +130,11 @@ class RealRoots(sp.Function):
 
 
 class BlockEigen(sp.Function):
-    r"""``BlockEigen(deg, n_other, n_R, others..., entries..., R..., R^-1...)``: a semi-closed
-    block diagonalised at the point (see :mod:`symresp.emit._eigen`). The value is a tuple:
-    the ``deg`` implicit levels ascending, then for each of them the n*n entries of its local
-    projector :math:`R\,uu^\dagger R^{-1}`, read with :class:`RootPick`.
+    r"""``BlockEigen(deg, mult, n_other, n_R, others..., entries..., R..., R^-1...)``: a
+    semi-closed block diagonalised at the point (see :mod:`symresp.emit._eigen`); each of its
+    ``deg`` implicit levels has ``mult`` states. The value is a tuple: the implicit levels
+    ascending, then for each of them the n*n entries of its local projector
+    :math:`R\,(\sum uu^\dagger) R^{-1}`, read with :class:`RootPick`.
     """
 
 

@@ -148,7 +148,8 @@ def is_zero(expr: sp.Expr) -> bool:
     if expr.is_rational_function():
         # Rational in the parameters: cancellation decides exactly.
         return sp.cancel(expr) == 0
-    if sp.expand(expr) == 0:
+    if not expr.has(LevelRoot) and sp.expand(expr) == 0:
+        # (Expanding products of implicit roots costs far more than the numeric test below.)
         return True
     syms = sorted(expr.free_symbols, key=lambda s: s.name)
     for k in range(3):

@@ -104,16 +104,16 @@ class _ProgramPrinting:
         return self._helper("realroots", *expr.args)
 
     def _print_BlockEigen(self, expr: BlockEigen) -> str:
-        deg, n_other, n_R = (int(x) for x in expr.args[:3])
-        rest = expr.args[3:]
+        deg, mult, n_other, n_R = (int(x) for x in expr.args[:4])
+        rest = expr.args[4:]
         others, rest = rest[:n_other], rest[n_other:]
         R, Rinv = rest[len(rest) - 2 * n_R:len(rest) - n_R], rest[len(rest) - n_R:]
         entries = rest[:len(rest) - 2 * n_R]
 
         def tup(xs) -> str:
             return "(" + "".join(f"{self._print(x)}, " for x in xs) + ")"
-        return (f"_blockeig{self._suffix}({deg}, {tup(others)}, {tup(entries)}, {tup(R)}, "
-                f"{tup(Rinv)})")
+        return (f"_blockeig{self._suffix}({deg}, {mult}, {tup(others)}, {tup(entries)}, "
+                f"{tup(R)}, {tup(Rinv)})")
 
     def _print_RootPick(self, expr: RootPick) -> str:
         roots, k = expr.args

@@ -90,7 +90,7 @@ def _root_lines(plan: Plan) -> list[tuple[sp.Symbol, sp.Expr]]:
     lines: list[tuple[sp.Symbol, sp.Expr]] = []
     if plan.eigen:
         for eb in plan.eigen:
-            lines.append((eb.holder, BlockEigen(eb.deg, len(eb.others), len(eb.R),
+            lines.append((eb.holder, BlockEigen(eb.deg, eb.mult, len(eb.others), len(eb.R),
                                                 *[_freeze(o) for o in eb.others],
                                                 *[_freeze(e) for e in eb.matrix], *eb.R, *eb.Rinv)))
             for sym, k in eb.roots:

@@ -55,9 +55,10 @@ def _realroots_s(c0, c1, c2, c3):
     return tuple(float(r) for r in _realroots_a(float(c0), float(c1), float(c2), float(c3)))
 
 
-def _blockeig_a(deg, others, entries, R, Rinv):
-    """A semi-closed block diagonalised at every point: its deg implicit levels, ascending,
-    then the n*n entries of each one's projector in the block's local basis (R u u^+ R^-1)."""
+def _blockeig_a(deg, mult, others, entries, R, Rinv):
+    """A semi-closed block diagonalised at every point: its deg implicit levels (mult states
+    each), ascending, then the n*n entries of each one's projector in the block's local basis
+    (R (sum u u^+) R^-1)."""
     n = math.isqrt(len(entries))
     arrays = numpy.broadcast_arrays(*[numpy.asarray(e) for e in entries])
     M = numpy.stack(arrays, axis=-1).reshape(arrays[0].shape + (n, n))
@@ -74,14 +75,16 @@ def _blockeig_a(deg, others, entries, R, Rinv):
         o = numpy.asarray(other, dtype=float)[..., None]
         nearest = numpy.argmin(numpy.where(free, numpy.abs(ev - o), numpy.inf), axis=-1)
         numpy.put_along_axis(free, nearest[..., None], False, axis=-1)
-    # Indices of the implicit levels: the free ones, ascending (eigh sorts ascending).
-    order = numpy.argsort(~free, axis=-1, kind="stable")[..., :deg]
+    # Indices of the implicit levels: the free ones, ascending (eigh sorts ascending), mult
+    # consecutive eigenvalues per level.
+    order = numpy.argsort(~free, axis=-1, kind="stable")[..., :deg * mult]
     roots = numpy.take_along_axis(ev, order, axis=-1)
-    out = [numpy.where(bad, numpy.nan, roots[..., k]) for k in range(deg)]
+    out = [numpy.where(bad, numpy.nan, roots[..., k * mult:(k + 1) * mult].mean(axis=-1))
+           for k in range(deg)]
     real = not numpy.iscomplexobj(H)
     for k in range(deg):
-        u = numpy.take_along_axis(U, order[..., None, k:k + 1], axis=-1)[..., 0]
-        P = u[..., :, None] * numpy.conj(u[..., None, :])
+        u = numpy.take_along_axis(U, order[..., None, k * mult:(k + 1) * mult], axis=-1)
+        P = u @ numpy.conj(numpy.swapaxes(u, -1, -2))
         if R:
             P = Rm @ P @ numpy.array(Rinv).reshape(n, n)
         if real:
@@ -90,8 +93,8 @@ def _blockeig_a(deg, others, entries, R, Rinv):
     return tuple(out)
 
 
-def _blockeig_s(deg, others, entries, R, Rinv):
-    return tuple(v.item() for v in _blockeig_a(deg, others, entries, R, Rinv))
+def _blockeig_s(deg, mult, others, entries, R, Rinv):
+    return tuple(v.item() for v in _blockeig_a(deg, mult, others, entries, R, Rinv))
 
 
 #: Relative spacing of two implicit levels below which the Jacobian of the exact weights

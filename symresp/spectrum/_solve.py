@@ -50,9 +50,13 @@ from ._symmetry import decompose_entries, find_symmetries, split_block, transfor
 
 __all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean", "is_zero_number"]
 
-#: Parametric irreducible factors of higher degree (or in larger blocks) raise ClosedFormError:
-#: their weights as polynomials in the implicit roots grow too large to be useful.
+#: Parametric irreducible factors of higher degree raise ClosedFormError, and so do larger
+#: blocks with a parametric implicit factor, or ones with more distinct levels: their weights,
+#: rational in the implicit roots, grow too large to be useful (measured: a 6-ring XXZ chain
+#: whose +-k sectors of 6 states repeat a cubic derives in 72 s but its evaluator takes minutes
+#: to generate; such a block now stops at once with the message below).
 MAX_IMPLICIT_DEGREE = 3
+MAX_IMPLICIT_MINIMAL = 4
 MAX_IMPLICIT_BLOCK = 4
 
 _x = sp.Symbol("x__block")  # block variable; a plain Symbol survives polys round trips
@@ -729,14 +733,16 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
         P = sp.Poly(f, _x)
         deg = P.degree()
         cs = P.all_coeffs()
-        if deg >= 3 and not all(c.is_Rational for c in cs) and (deg > MAX_IMPLICIT_DEGREE
-                                                                 or n > MAX_IMPLICIT_BLOCK):
+        minimal = sum(sp.Poly(g, _x).degree() for g, _ in flist if g.has(_x))
+        if deg >= 3 and not all(c.is_Rational for c in cs) and (
+                deg > MAX_IMPLICIT_DEGREE or n > MAX_IMPLICIT_BLOCK or minimal > MAX_IMPLICIT_MINIMAL):
             raise ClosedFormError(
                 f"{where}: the characteristic polynomial has an irreducible factor of degree {deg} "
                 f"in the parameters ({sp.sstr(f.subs(_x, sp.Symbol('E')))}); its roots have no closed "
                 f"form, and implicit roots are kept symbolically only for factors of degree <= "
-                f"{MAX_IMPLICIT_DEGREE} in blocks of size <= {MAX_IMPLICIT_BLOCK}. Give numeric "
-                f"values to all but one parameter of this block, or use the numeric reference"
+                f"{MAX_IMPLICIT_DEGREE} in blocks of size <= {MAX_IMPLICIT_BLOCK} with at most "
+                f"{MAX_IMPLICIT_MINIMAL} distinct levels. Give numeric values to all but one "
+                f"parameter of this block, or use the numeric reference"
             )
         kc = [K.from_sympy(c) for c in cs]
         mcoeffs = _poly_mul(K, mcoeffs, kc)

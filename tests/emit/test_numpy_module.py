@@ -24,6 +24,7 @@ import symresp as sr
 from symresp import numeric
 from symresp.conventions import Convention
 from symresp.emit import compile_module, numpy_module_source
+from symresp.emit._runtime_roots import ROOTS_RUNTIME
 from symresp.errors import InputError
 
 from ._models import CASES, module, response, source
@@ -497,3 +498,21 @@ def test_semi_closed_block_is_accurate_where_its_levels_nearly_coincide(params):
     Ts = np.array([0.3, 0.5, 2.0])
     expected = [numeric.static_isothermal(H, A, B, 1 / x) for x in Ts]
     _assert_close(mod.chi_isothermal(Ts, *[np.full(3, a) for a in args]), expected, "arrays")
+
+
+def test_block_diagonalisation_groups_repeated_levels():
+    # A block whose implicit levels each hold two states (a symmetry sector with +-k): the
+    # runtime helper must return one level per pair and the rank-2 projector onto it.
+    namespace = {"numpy": np, "math": math}
+    exec(compile(ROOTS_RUNTIME, "<runtime>", "exec"), namespace)  # the generated modules' own text
+    rng = np.random.default_rng(3)
+    Q, _ = np.linalg.qr(rng.normal(size=(6, 6)))
+    levels = np.array([-1.0, -1.0, 0.3, 0.3, 2.0, 2.0])
+    M = Q @ np.diag(levels) @ Q.T
+    out = namespace["_blockeig_a"](3, 2, (), tuple(M.ravel()), (), ())
+    assert np.allclose(out[:3], [-1.0, 0.3, 2.0], atol=1e-12)
+    projectors = [np.array(out[3 + 36 * k: 3 + 36 * (k + 1)]).reshape(6, 6) for k in range(3)]
+    for k, P in enumerate(projectors):
+        assert np.allclose(P @ P, P, atol=1e-12) and abs(np.trace(P) - 2) < 1e-12
+        assert np.allclose(M @ P, levels[2 * k] * P, atol=1e-12)
+    assert np.allclose(sum(projectors), np.eye(6), atol=1e-12)
