@@ -473,8 +473,7 @@ class _Evaluator:
                 self.arity(node, 1, f"{base.name}.proj(i)")
                 i = self.level_index(base, node.args[0])
                 return base.proj(i)
-            value = self.attribute(func)
-            del value
+            self.attribute(func)      # an unknown attribute is the better message: raised first
             raise self.error(node.offset, "missing operator before '(': write '*' for a product")
         name = func.name
         if name in self.scope:

@@ -12,7 +12,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 import symresp as sr
-from symresp.algebra import Basis, to_array, to_sympy_matrix
+from symresp.algebra import Basis, to_array
 from symresp.errors import InputError
 
 from ..conftest import ATOL_EXACT, RTOL_EXACT, assert_close

@@ -104,7 +104,7 @@ def test_level_site_transitions_and_projectors():
 
 
 def test_fermions_bosons_dag_and_n():
-    c_up, c_dn, x = SCOPE["c_up"], SCOPE["c_dn"], SCOPE["x"]
+    c_up = SCOPE["c_up"]
     assert parse_operator("n(c_up)", SCOPE) == sr.dagger(c_up) * c_up
     assert parse_operator("c_up*dag(c_dn) + dag(c_dn)*c_up", SCOPE).is_zero
     assert parse_operator("[x, dag(x)]", SCOPE) == 1
