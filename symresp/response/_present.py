@@ -49,7 +49,10 @@ def _generators(expr: sp.Expr) -> dict[sp.Expr, tuple[sp.Dummy, sp.Rational, boo
         L = reduce(sp.ilcm, [c.q for c in coeffs[rest]], 1)
         decaying = bool(rest.is_positive)
         # Oriented so that the variable is a decaying Boltzmann factor at a generic point.
-        sign = -1 if decaying or sp.N(rest.subs(point)) > 0 else 1
+        value = sp.N(rest.subs(point))
+        if not value.is_real:
+            return None                    # not a thermal exponent (e.g. a phase)
+        sign = -1 if decaying or value > 0 else 1
         gens[rest] = (sp.Dummy(f"u{k}", positive=True), sp.Rational(sign, L), decaying)
     return gens
 

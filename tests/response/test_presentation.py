@@ -68,3 +68,8 @@ def test_sign_free_parameter_without_a_reversal_symmetry_keeps_plain_exponential
 def test_boltzmann_form_declines_non_linear_exponents():
     assert boltzmann_form(sp.exp(-beta * J**2 * sp.exp(J))) is None
     assert boltzmann_form(beta * J) is None
+
+
+def test_boltzmann_form_leaves_phases_alone():
+    t = sp.Symbol("t", real=True)
+    assert boltzmann_form(sp.exp(sp.I * J * t) + sp.exp(-beta * J)) is None
