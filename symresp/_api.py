@@ -7,10 +7,10 @@ imports this module.
 
 from __future__ import annotations
 
+import cmath
+import types
 from collections.abc import Mapping
 from typing import Literal
-
-import types
 
 import numpy as np
 import sympy as sp
@@ -555,6 +555,10 @@ class Response:
         return f"Response(A={describe(self._d.A)}, B={describe(self._d.B)}, levels={len(self._d.levels)})"
 
 
+#: Relative step off a removable singularity of a closed form in :func:`evaluate_expression`.
+_NUDGE = sp.Rational(1, 10**15)
+
+
 def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T: float | None,
                         omega_value: complex | None = None, time_value: float | None = None) -> complex:
     """Numeric value of one of the response's closed forms (mpmath precision, via sympy)."""
@@ -584,7 +588,23 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
         subs[t] = sp.nsimplify(time_value)
     # Each implicit root is evaluated once (CRootOf isolates its root again on every evalf call).
     subs.update({r: sp.Float(r.evalf(40), 40) for r in expr.atoms(sp.CRootOf)})
-    return complex(sp.N(expr.xreplace(subs), 30))
+    value = complex(sp.N(expr.xreplace(subs), 30))
+    if cmath.isfinite(value) or not p:
+        return value
+    # A removable singularity of the closed form: two levels meet at this point, e.g. a term
+    # (p_a - p_b) W / (E_b - E_a) at E_a = E_b. The response is analytic there, so its value
+    # is the limit, taken 1e-15 (relative) away in 30-digit arithmetic. The isolated
+    # susceptibility is the exception: it drops degenerate pairs by definition, so it jumps.
+    if quantity == "isolated":
+        raise InputError("evaluate: levels of the closed form meet at these parameters, where the "
+                         "isolated susceptibility is discontinuous (degenerate pairs leave it); use "
+                         "Response.reference(...) or the emitted evaluator (Response.numpy()) there")
+    nudged = dict(subs)
+    for i, k in enumerate(sorted(p, key=lambda s: s.name)):
+        v = subs[k]
+        nudged[k] = v * (1 + (i + 1) * _NUDGE) if v != 0 else (i + 1) * _NUDGE
+    nudged.update({r: sp.Float(r.evalf(40), 40) for r in expr.xreplace(nudged).atoms(sp.CRootOf)})
+    return complex(sp.N(expr.xreplace(nudged), 30))
 
 
 @public

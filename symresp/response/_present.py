@@ -166,16 +166,17 @@ def boltzmann_form(expr: sp.Expr, *, min_generators: int = 1) -> sp.Expr | None:
     us = [u for _, (u, _s, _d) in items]
     n, d = sp.fraction(sp.together(_substitute(expr, gens)))
     out = sp.Integer(1)
+    plain = sp.Integer(1)              # the parts free of exponentials, cancelled together
     for poly, sign in ((n, 1), (d, -1)):
         content, factors = sp.factor_list(poly, *us)
-        out *= content**sign
+        plain *= content**sign
         for F, k in factors:
             if F.has(*us):
                 pre, body = _factor_form(F.as_expr(), items)
                 out *= (pre * body) ** (sign * k)
             else:
-                out *= F.as_expr() ** (sign * k)
-    return merge_exponentials(_double_angle(out))
+                plain *= F.as_expr() ** (sign * k)
+    return merge_exponentials(_double_angle(sp.factor(sp.cancel(plain)) * out))
 
 
 def merge_exponentials(expr: sp.Expr) -> sp.Expr:

@@ -6,6 +6,7 @@ presentation rule can only change how a formula reads, never what it is.
 
 from __future__ import annotations
 
+import pytest
 import sympy as sp
 
 import symresp as sr
@@ -73,3 +74,28 @@ def test_boltzmann_form_declines_non_linear_exponents():
 def test_boltzmann_form_leaves_phases_alone():
     t = sp.Symbol("t", real=True)
     assert boltzmann_form(sp.exp(sp.I * J * t) + sp.exp(-beta * J)) is None
+
+
+def test_parameter_factors_cancel_between_numerator_and_denominator():
+    # Levels 0 and 2(J1 - J2): the factor (J1 - J2) of the weights must not survive as an
+    # uncancelled pair in the presented form.
+    J1, J2 = sp.Symbol("J1", real=True), sp.Symbol("J2", positive=True)
+    s = sr.spin("s", HALF)
+    chi = sr.Model((2 * J1 - 2 * J2) * (s.z + HALF)).response(s.x).static("isothermal")
+    _, den = sp.fraction(sp.together(chi))
+    assert sp.degree(sp.Poly(sp.factor(den).as_independent(sp.exp)[0], J1)) <= 1
+
+
+def test_evaluate_takes_the_limit_where_levels_meet():
+    # At J1 = J2 the closed form is 0/0 (a removable singularity); evaluate() gives the limit,
+    # equal to exact diagonalisation, and refuses the isolated susceptibility, which jumps there.
+    J1, J2 = sp.Symbol("J1", real=True), sp.Symbol("J2", positive=True)
+    s = sr.spin("s", HALF)
+    r = sr.Model((2 * J1 - 2 * J2) * (s.z + HALF)).response(s.x)
+    p = {"J1": 1.0, "J2": 1.0}
+    ref = r.reference(params=p, T=0.3)
+    assert abs(r.evaluate("isothermal", params=p, T=0.3) - ref.isothermal) < 1e-12
+    assert abs(r.evaluate("frequency", params=p, T=0.3, omega_value=0.5 + 0.1j)
+               - ref.frequency(0.5, 0.1)) < 1e-12
+    with pytest.raises(sr.InputError, match="isolated susceptibility is discontinuous"):
+        r.evaluate("isolated", params=p, T=0.3)
