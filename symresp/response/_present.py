@@ -32,40 +32,54 @@ import sympy as sp
 __all__ = ["boltzmann_form", "merge_exponentials"]
 
 
-def _generators(expr: sp.Expr) -> dict[sp.Expr, tuple[sp.Dummy, sp.Rational, bool]] | None:
-    """generator g -> (u, s, decaying) with exp(c g) = u**(c/s); None if not of that shape."""
-    coeffs: dict[sp.Expr, set] = {}
-    for a in expr.atoms(sp.exp):
+def _generators(expr: sp.Expr):
+    """(generators, monomials): generator g -> (u, s, decaying), with exp(c g) = u**(c/s), and
+    for every exponential its coefficients on the generators; None if not of that shape.
+
+    The generators are a basis of the exponents' span (row echelon form over QQ), so
+    parameters that only ever appear in one combination, as in levels 0 and 2(J1 - J2), give
+    one generator beta*(J1 - J2) rather than two.
+    """
+    atoms = sorted(expr.atoms(sp.exp), key=sp.default_sort_key)
+    vectors, rests = [], []
+    for a in atoms:
+        vec: dict[sp.Expr, sp.Rational] = {}
         for term in sp.Add.make_args(sp.expand(a.args[0])):
             c, rest = term.as_coeff_Mul()
             if not c.is_Rational or rest.is_number or rest.has(sp.exp):
                 return None
-            coeffs.setdefault(rest, set()).add(c)
+            vec[rest] = vec.get(rest, sp.Integer(0)) + c
+            if rest not in rests:
+                rests.append(rest)
+        vectors.append(vec)
+    if not rests:
+        return None
+    rests.sort(key=sp.default_sort_key)
+    R, pivots = sp.Matrix([[v.get(r, 0) for r in rests] for v in vectors]).rref()
+    basis = [sp.Add(*[R[i, j] * rests[j] for j in range(len(rests))]) for i in range(len(pivots))]
+    coords = {a: [v.get(rests[p], sp.Integer(0)) for p in pivots] for a, v in zip(atoms, vectors)}
     symbols = sorted(expr.free_symbols, key=lambda x: x.name)
     point = {x: (sp.Rational(2, 3) + sp.Rational(k, 7)) if x.is_positive else
              (sp.Rational(1, 10) + sp.Rational(k, 37)) for k, x in enumerate(symbols)}
     gens = {}
-    for k, rest in enumerate(sorted(coeffs, key=sp.default_sort_key)):
-        L = reduce(sp.ilcm, [c.q for c in coeffs[rest]], 1)
-        decaying = bool(rest.is_positive)
+    for k, g in enumerate(basis):
+        L = reduce(sp.ilcm, [sp.Rational(t[k]).q for t in coords.values()], 1)
+        decaying = bool(g.is_positive)
         # Oriented so that the variable is a decaying Boltzmann factor at a generic point.
-        value = sp.N(rest.subs(point))
-        if not value.is_real:
+        value = sp.N(g.subs(point))
+        if not value.is_real or value == 0:
             return None                    # not a thermal exponent (e.g. a phase)
         sign = -1 if decaying or value > 0 else 1
-        gens[rest] = (sp.Dummy(f"u{k}", positive=True), sp.Rational(sign, L), decaying)
-    return gens
+        gens[g] = (sp.Dummy(f"u{k}", positive=True), sp.Rational(sign, L), decaying)
+    return gens, coords
 
 
-def _substitute(expr: sp.Expr, gens: dict) -> sp.Expr:
+def _substitute(expr: sp.Expr, gens: dict, coords: dict) -> sp.Expr:
+    items = list(gens.values())
+
     def monomial(a: sp.exp) -> sp.Expr:
-        out = sp.Integer(1)
-        for term in sp.Add.make_args(sp.expand(a.args[0])):
-            c, rest = term.as_coeff_Mul()
-            u, s, _ = gens[rest]
-            out *= u ** (c / s)
-        return out
-    return expr.xreplace({a: monomial(a) for a in expr.atoms(sp.exp)})
+        return sp.Mul(*[u ** (t / s) for t, (u, s, _) in zip(coords[a], items)])
+    return expr.xreplace({a: monomial(a) for a in coords})
 
 
 def _exponent(powers, items) -> sp.Expr:
@@ -159,12 +173,13 @@ def boltzmann_form(expr: sp.Expr, *, min_generators: int = 1) -> sp.Expr | None:
     >>> boltzmann_form(b * (sp.exp(b * h) - sp.exp(-b * h)) * sp.exp(-b * J) / Zr)
     2*beta*exp(-J*beta)*sinh(beta*h)/((2*cosh(beta*h) + 1)*exp(-J*beta) + 1)
     """
-    gens = _generators(expr)
-    if not gens or len(gens) < min_generators:
+    found = _generators(expr)
+    if found is None or len(found[0]) < min_generators:
         return None
+    gens, coords = found
     items = list(gens.items())
     us = [u for _, (u, _s, _d) in items]
-    n, d = sp.fraction(sp.together(_substitute(expr, gens)))
+    n, d = sp.fraction(sp.together(_substitute(expr, gens, coords)))
     out = sp.Integer(1)
     plain = sp.Integer(1)              # the parts free of exponentials, cancelled together
     for poly, sign in ((n, 1), (d, -1)):
