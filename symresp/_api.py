@@ -587,7 +587,7 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
             raise InputError("evaluate: give time_value for the 'time' quantity")
         subs[t] = sp.nsimplify(time_value)
     # Each implicit root is evaluated once (CRootOf isolates its root again on every evalf call).
-    subs.update({r: sp.Float(r.evalf(40), 40) for r in expr.atoms(sp.CRootOf)})
+    subs.update({r: r.evalf(40) for r in expr.atoms(sp.CRootOf)})  # complex ones too
     value = complex(sp.N(expr.xreplace(subs), 30))
     if cmath.isfinite(value) or not p:
         return value
@@ -603,8 +603,11 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
     for i, k in enumerate(sorted(p, key=lambda s: s.name)):
         v = subs[k]
         nudged[k] = v * (1 + (i + 1) * _NUDGE) if v != 0 else (i + 1) * _NUDGE
-    nudged.update({r: sp.Float(r.evalf(40), 40) for r in expr.xreplace(nudged).atoms(sp.CRootOf)})
-    return complex(sp.N(expr.xreplace(nudged), 30))
+    at = expr.xreplace(nudged)
+    at = at.xreplace({r: r.evalf(80) for r in at.atoms(sp.CRootOf)})
+    # Weights of a block whose eigenvectors are undefined at the point can be singular to
+    # second order: 60 digits leave 30 after the cancellation.
+    return complex(sp.N(at, 60))
 
 
 @public

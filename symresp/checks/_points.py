@@ -182,7 +182,7 @@ def _constants_as_floats(expr: sp.Expr) -> sp.Expr:
     roots = expr.atoms(sp.CRootOf)
     if not roots:
         return expr
-    return expr.xreplace({r: sp.Float(r.evalf(WORKING_DIGITS + 10), WORKING_DIGITS + 10) for r in roots})
+    return expr.xreplace({r: r.evalf(WORKING_DIGITS + 10) for r in roots})
 
 
 def _level_root_mp(k, *coeffs):
