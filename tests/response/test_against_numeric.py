@@ -95,3 +95,32 @@ def test_free_spin_isothermal_is_curie_and_isolated_is_zero(S):
     Sv = sp.Rational(S)
     assert sp.simplify(r.static("isothermal") - sr.beta * Sv * (Sv + 1) / 3) == 0
     assert r.static("isolated") == 0
+
+
+def _imaginary_scale_models():
+    # Found by the thorough profile: H = i J1 R with R real antisymmetric, so the block is
+    # solved as a scale i J1 times a rational matrix whose characteristic polynomial
+    # 16 x^4 + 24 x^2 + 1 has imaginary roots (complex CRootOf; the energies are real); and
+    # H proportional to (J1 + 1), where every level meets at J1 = -1.
+    J1 = sp.Symbol("J1", real=True)
+    s, q = sr.spin("s0", sp.Rational(1, 2)), sr.nlevel("s1", 2)
+    up, dn, i = s.plus, s.minus, sp.I
+    H1 = (-i * J1) * up + (-i * J1 / 2) * up * q.op(0, 1) + (-i * J1 / 2) * up * q.op(1, 0) \
+        + (i * J1) * up * q.op(1, 1) + (i * J1) * dn + (i * J1 / 2) * dn * q.op(0, 1) \
+        + (i * J1 / 2) * dn * q.op(1, 0) + (-i * J1) * dn * q.op(1, 1)
+    H2 = (J1 + 1) * (-i * up + i * up * q.op(1, 1) + i * dn - i * dn * q.op(1, 1))
+    return [(H1, up + dn), (H2, up + dn)]
+
+
+@pytest.mark.parametrize("which", [0, 1])
+@pytest.mark.parametrize("J", [-1.0, 0.7])
+def test_imaginary_scale_and_meeting_levels_evaluate_to_exact_diagonalisation(which, J):
+    H, A = _imaginary_scale_models()[which]
+    r = sr.Model(H).response(A)
+    p = {"J1": J}
+    ref = r.reference(params=p, T=0.3)
+    assert_close(r.evaluate("isothermal", params=p, T=0.3), ref.isothermal, what="isothermal")
+    assert_close(r.evaluate("frequency", params=p, T=0.3, omega_value=0.4 + 0.1j),
+                 ref.frequency(0.4, 0.1), what="chi(omega)")
+    f = r.numpy()
+    assert_close(f.chi_isothermal(0.3, J), ref.isothermal, what="emitted isothermal")
