@@ -284,30 +284,18 @@ def _glue(plan: Plan, has_time: bool) -> list[str]:
        ['    if kind == "isothermal":', f"        return chi_isothermal(T{sig})",
         '    if kind == "isolated":', f"        return chi_isolated(T{sig})",
         "    raise ValueError(f\"kind={kind!r} must be 'isothermal' or 'isolated'\")"])
-    if plan.eigen:
-        # Semi-closed blocks: where two of their levels nearly coincide, the exact weights'
-        # derivatives lose digits; there the Jacobian is taken from the stable values.
-        fn(f'def jacobian_static(T{sig}, *, kind="isothermal"):', "jacobian_static",
-           ['    if kind == "isothermal":',
-            f"        J = _static_call(_jacobian_isothermal_s, _jacobian_isothermal_a, "
-            f"_params_jacobian_s, _params_jacobian_a, T, {tup}, {n}, _STATIC)",
-            "        return _semi_closed_jacobian(J, chi_isothermal, T, "
-            f"{tup}, energies, _IMPLICIT_LEVELS)",
-            '    if kind == "isolated":',
-            f"        J = _static_call(_jacobian_isolated_s, _jacobian_isolated_a, "
-            f"_params_jacobian_s, _params_jacobian_a, T, {tup}, {n}, _STATIC)",
-            "        return _semi_closed_jacobian(J, chi_isolated, T, "
-            f"{tup}, energies, _IMPLICIT_LEVELS)",
-            "    raise ValueError(f\"kind={kind!r} must be 'isothermal' or 'isolated'\")"])
-    else:
-        fn(f'def jacobian_static(T{sig}, *, kind="isothermal"):', "jacobian_static",
-           ['    if kind == "isothermal":',
-            f"        return _static_call(_jacobian_isothermal_s, _jacobian_isothermal_a, "
-            f"_params_jacobian_s, _params_jacobian_a, T, {tup}, {n}, _STATIC)",
-            '    if kind == "isolated":',
-            f"        return _static_call(_jacobian_isolated_s, _jacobian_isolated_a, "
-            f"_params_jacobian_s, _params_jacobian_a, T, {tup}, {n}, _STATIC)",
-            "    raise ValueError(f\"kind={kind!r} must be 'isothermal' or 'isolated'\")"])
+    jac_body = []
+    for kind in ("isothermal", "isolated"):
+        call = (f"_static_call(_jacobian_{kind}_s, _jacobian_{kind}_a, _params_jacobian_s, "
+                f"_params_jacobian_a, T, {tup}, {n}, _STATIC)")
+        if plan.eigen:
+            # Semi-closed blocks: where two of their levels nearly coincide, the exact weights'
+            # derivatives lose digits; there the Jacobian is taken from the stable values.
+            call = (f"_semi_closed_jacobian({call}, chi_{kind}, T, {tup}, energies, "
+                    "_IMPLICIT_LEVELS)")
+        jac_body += [f'    if kind == "{kind}":', f"        return {call}"]
+    fn(f'def jacobian_static(T{sig}, *, kind="isothermal"):', "jacobian_static",
+       [*jac_body, "    raise ValueError(f\"kind={kind!r} must be 'isothermal' or 'isolated'\")"])
     fn(f"def chi_omega(omega, T{sig}, *, eta):", "chi_omega", [
         *grid_fast("omega", "poles_omega", "_omega_w", "eta", "_C128"),
         f"    return _dynamic_call(_poles_omega_s, _poles_omega_a, _params_dynamic_s, "
