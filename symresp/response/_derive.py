@@ -33,7 +33,7 @@ from ..conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from ..errors import InputError
 from ..models import Budget, System
 from ..spectrum import LevelRoot, Spectrum, clean, is_zero_number, solve
-from ._present import boltzmann_form, merge_exponentials
+from ._present import boltzmann_form, hyperbolic_ratio, merge_exponentials
 
 __all__ = ["Level", "Transition", "Derivation", "derive", "StaticKind", "present"]
 
@@ -101,6 +101,8 @@ def present(expr: sp.Expr, *, max_ops: int = 400) -> sp.Expr:
         # relative to the lowest level, with cosh/sinh for the +-pairs of a field. One factor
         # alone takes the path below (tanh/coth forms, textbook shapes such as 2b/(3 + e^bJ)).
         nice = boltzmann_form(expr, min_generators=2)
+        if nice is None:
+            nice = hyperbolic_ratio(expr)
         if nice is not None:
             return nice
     e = sp.together(expr)

@@ -29,7 +29,7 @@ from functools import reduce
 
 import sympy as sp
 
-__all__ = ["boltzmann_form", "merge_exponentials"]
+__all__ = ["boltzmann_form", "merge_exponentials", "hyperbolic_ratio"]
 
 
 def _generators(expr: sp.Expr):
@@ -198,3 +198,29 @@ def merge_exponentials(expr: sp.Expr) -> sp.Expr:
     """One exponential per product, its exponent expanded: exp(a)*exp(b) -> exp(a + b)."""
     merged = sp.powsimp(expr, combine="exp")
     return merged.xreplace({e: sp.exp(sp.expand(e.args[0])) for e in merged.atoms(sp.exp)})
+
+
+def hyperbolic_ratio(expr: sp.Expr) -> sp.Expr | None:
+    """``c*tanh(k g/2)`` or ``c*coth(k g/2)`` when ``expr`` has one exponent generator g and
+    equals ``c (e^{kg} - 1)/(e^{kg} + 1)`` (or its inverse) with c free of exponentials.
+
+    Examples
+    --------
+    >>> import sympy as sp
+    >>> b, J1, J2 = sp.symbols("beta J1 J2", positive=True)
+    >>> x = sp.exp(-b * (J1 - J2))
+    >>> hyperbolic_ratio((1 - x**2) / (2 * (J1 - J2) * (1 + x**2)))
+    tanh(beta*(J1 - J2))/(2*(J1 - J2))
+    """
+    found = _generators(expr)
+    if found is None or len(found[0]) != 1:
+        return None
+    gens, coords = found
+    (g, (u, s, _)), = gens.items()
+    ratio = sp.cancel(_substitute(expr, gens, coords))
+    for k in (1, 2, 3, 4):
+        for shape, form in (((u**k - 1) / (u**k + 1), sp.tanh), ((u**k + 1) / (u**k - 1), sp.coth)):
+            c = sp.cancel(ratio / shape)
+            if not c.has(u):
+                return sp.factor(c) * form(sp.factor(k * s * g / 2))
+    return None

@@ -99,3 +99,14 @@ def test_evaluate_takes_the_limit_where_levels_meet():
                - ref.frequency(0.5, 0.1)) < 1e-12
     with pytest.raises(sr.InputError, match="isolated susceptibility is discontinuous"):
         r.evaluate("isolated", params=p, T=0.3)
+
+
+def test_one_generator_in_a_parameter_combination_reads_as_tanh():
+    # Levels 0 and 2(J1 - J2), A = S^x: chi = tanh(beta (J1 - J2)) / (4 (J1 - J2)), the
+    # two-level result with splitting 2(J1 - J2) (common practice).
+    J1, J2 = sp.Symbol("J1", real=True), sp.Symbol("J2", positive=True)
+    s = sr.spin("s", HALF)
+    chi = sr.Model((2 * J1 - 2 * J2) * (s.z + HALF)).response(s.x).static("isothermal")
+    assert chi.has(sp.tanh) and not chi.has(sp.exp)
+    assert _equal(chi.subs({J1: sp.Rational(3, 2), J2: sp.Rational(1, 3)}),
+                  (sp.tanh(beta * sp.Rational(7, 6)) / (4 * sp.Rational(7, 6))))
