@@ -24,7 +24,7 @@ from mpmath.ctx_mp import MPContext
 
 from ..errors import InputError
 from ..numeric import real_roots
-from ..spectrum import LevelRoot
+from ..spectrum import LevelRoot, real_root
 
 __all__ = ["evaluate_precise", "evaluate_arrays", "PRECISE_DIGITS"]
 
@@ -113,8 +113,7 @@ def _mp_backend(ctx: MPContext, digits: int) -> _Backend:
         sp.conjugate: ctx.conj,
     }
     def root(k: int, coeffs: list):
-        roots = ctx.polyroots([ctx.re(c) for c in coeffs], maxsteps=200, extraprec=4 * digits)
-        return sorted(ctx.re(r) for r in roots)[k]
+        return real_root(k, coeffs, ctx, extra=4 * digits)
 
     return _Backend(number, {sp.pi: ctx.pi, sp.E: ctx.e, sp.I: ctx.mpc(0, 1)}, functions, power,
                     root)

@@ -33,6 +33,7 @@ import sympy as sp
 from ..errors import InputError
 from ..numeric import real_roots
 from ..response import Derivation
+from ..spectrum import real_root
 
 __all__ = [
     "WORKING_DIGITS",
@@ -187,9 +188,7 @@ def _constants_as_floats(expr: sp.Expr) -> sp.Expr:
 
 def _level_root_mp(k, *coeffs):
     """k-th smallest real root of a parametric characteristic factor, in mpmath."""
-    cs = [mp.re(mp.mpmathify(c)) for c in coeffs]
-    roots = mp.polyroots(cs, maxsteps=200, extraprec=2 * mp.mp.prec)
-    return sorted(mp.re(r) for r in roots)[int(k)]
+    return real_root(k, coeffs, mp, extra=2 * mp.mp.prec)
 
 
 def _level_root_np(k, *coeffs):

@@ -37,6 +37,7 @@ import mpmath
 import sympy as sp
 
 from ..algebra import sparse_form
+from ..errors import ClosedFormError
 from ..response import Derivation
 from ..spectrum import LevelRoot
 from ._plan import Pair, Plan
@@ -101,13 +102,6 @@ def _local_projector(sol, factor: int, root: int) -> sp.Matrix:
     return P / den
 
 
-def _matrix(blk: dict | None, rows: int, cols: int) -> sp.Matrix:
-    M = sp.zeros(rows, cols)
-    for (i, j), v in (blk or {}).items():
-        M[i, j] = v
-    return M
-
-
 def eigen_plan(d: Derivation, plan: Plan) -> Plan:
     """``plan`` with every quantity that involves an implicit level rewritten with numeric
     projectors (unchanged when the derivation has no parametric implicit level)."""
@@ -131,8 +125,9 @@ def eigen_plan(d: Derivation, plan: Plan) -> Plan:
                     if f.implicit and any(isinstance(r, LevelRoot) for r in f.roots)]
         if not implicit:
             continue
-        if len(implicit) > 1:
-            return plan                          # not produced by the engine (one cubic per block)
+        if len(implicit) > 1:                    # not produced by the engine (one cubic per block)
+            raise ClosedFormError(f"emit: block {bi} has {len(implicit)} parametric implicit "
+                                  "factors; evaluators diagonalise blocks with one only")
         fi = implicit[0]
         f = sol.factors[fi]
         n = sol.block.size
@@ -173,15 +168,15 @@ def eigen_plan(d: Derivation, plan: Plan) -> Plan:
     def weight(pa: int, pb: int) -> sp.Expr:
         """Tr(P_a A P_b B) for two parts, at least one of them numeric."""
         X, Y = spec.parts[pa].block, spec.parts[pb].block
-        A = _matrix(As.get((X, Y)), size(pa), size(pb))
-        B = _matrix(Bs.get((Y, X)), size(pb), size(pa))
+        A = sp.Matrix(sp.SparseMatrix(size(pa), size(pb), As.get((X, Y), {})))
+        B = sp.Matrix(sp.SparseMatrix(size(pb), size(pa), Bs.get((Y, X), {})))
         if A.is_zero_matrix or B.is_zero_matrix:
             return sp.Integer(0)
         return sub(sp.expand((projector(pa) * A * projector(pb) * B).trace()))
 
     def expectation(Ss: dict, pa: int) -> sp.Expr:
         X = spec.parts[pa].block
-        A = _matrix(Ss.get((X, X)), size(pa), size(pa))
+        A = sp.Matrix(sp.SparseMatrix(size(pa), size(pa), Ss.get((X, X), {})))
         return sub(sp.expand((projector(pa) * A).trace()))
 
     levels = d.levels

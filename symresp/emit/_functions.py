@@ -18,7 +18,7 @@ from __future__ import annotations
 import sympy as sp
 
 __all__ = ["Boltzmann", "ExpDiv", "ExpDiv2", "Keep", "LevelMin", "AtMin", "DegeneracyTol",
-           "Causal", "RealRoots", "BlockEigen", "RootPick", "CACHE_ONLY"]
+           "Causal", "BlockEigen", "RootPick", "CACHE_ONLY"]
 
 
 class Boltzmann(sp.Function):
@@ -119,16 +119,6 @@ class Causal(sp.Function):
     nargs = 2
 
 
-class RealRoots(sp.Function):
-    r"""``RealRoots(c_0, ..., c_n)``: the real roots, ascending, of :math:`\sum_i c_i E^{n-i}`.
-
-    The characteristic factor of a semi-closed block (all its roots are real, the block being
-    Hermitian), solved numerically at every evaluation point; the value is a tuple, read with
-    :class:`RootPick`. Only stage P (parameters) holds it, so it needs no derivative: the
-    Jacobian uses :math:`\partial\lambda/\partial\theta = -f_\theta(\lambda)/f_E(\lambda)`.
-    """
-
-
 class BlockEigen(sp.Function):
     r"""``BlockEigen(deg, mult, n_other, n_R, others..., entries..., R..., R^-1...)``: a
     semi-closed block diagonalised at the point (see :mod:`symresp.emit._eigen`); each of its
@@ -139,6 +129,6 @@ class BlockEigen(sp.Function):
 
 
 class RootPick(sp.Function):
-    """``RootPick(roots, k)``: the k-th smallest entry of a :class:`RealRoots` value."""
+    """``RootPick(values, k)``: entry k of a :class:`BlockEigen` value (a tuple)."""
 
     nargs = 2

@@ -82,11 +82,11 @@ class RootSet:
     r"""The real roots of one parameter-dependent characteristic factor (a semi-closed block).
 
     ``coeffs`` (highest power first, in the code-safe parameters) define
-    :math:`f(E) = \sum_i c_i E^{n-i}`; ``holder`` names the tuple of its roots in the code and
-    ``picks`` the roots the response uses, as (symbol, k) with k the ascending position.
+    :math:`f(E) = \sum_i c_i E^{n-i}`; ``picks`` are the roots the response uses, as
+    (symbol, k) with k the ascending position. Their values come from the diagonalised block
+    (``_eigen.py``); ``coeffs`` give their derivatives.
     """
 
-    holder: sp.Symbol
     coeffs: tuple[sp.Expr, ...]
     picks: tuple[tuple[sp.Symbol, int], ...]
 
@@ -283,7 +283,7 @@ def _root_sets(exprs: list[sp.Expr]) -> tuple[tuple[RootSet, ...], dict]:
             sym = sp.Symbol(f"_lam{g}_{k}", real=True)
             rmap[a] = sym
             picks.append((sym, k))
-        sets.append(RootSet(sp.Symbol(f"_roots{g}"), coeffs, tuple(picks)))
+        sets.append(RootSet(coeffs, tuple(picks)))
     return tuple(sets), rmap
 
 

@@ -23,7 +23,7 @@ from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.pycode import PythonCodePrinter
 
 from ._functions import (AtMin, BlockEigen, Boltzmann, Causal, DegeneracyTol, ExpDiv, ExpDiv2, Keep,
-                         LevelMin, RealRoots, RootPick)
+                         LevelMin, RootPick)
 
 __all__ = ["ArrayPrinter", "ScalarPrinter", "freeze_constants", "DIGITS"]
 
@@ -99,9 +99,6 @@ class _ProgramPrinting:
 
     def _print_Causal(self, expr: Causal) -> str:
         return self._helper("causal", *expr.args)
-
-    def _print_RealRoots(self, expr: RealRoots) -> str:
-        return self._helper("realroots", *expr.args)
 
     def _print_BlockEigen(self, expr: BlockEigen) -> str:
         deg, mult, n_other, n_R = (int(x) for x in expr.args[:4])

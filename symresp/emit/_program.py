@@ -25,7 +25,7 @@ from dataclasses import dataclass
 import sympy as sp
 
 from ._functions import (AtMin, BlockEigen, Boltzmann, Causal, DegeneracyTol, ExpDiv, Keep,
-                         LevelMin, RealRoots, RootPick)
+                         LevelMin, RootPick)
 from ._plan import Plan
 from ._printers import freeze_constants
 
@@ -85,25 +85,17 @@ def _freeze(e: sp.Expr) -> sp.Expr:
 
 # ---------------------------------------------------------------------------------- stage P
 def _root_lines(plan: Plan) -> list[tuple[sp.Symbol, sp.Expr]]:
-    """The roots of each semi-closed block's characteristic factor, solved at the point (and,
-    for the value functions, the block's projectors: ``plan.eigen``)."""
+    """Each semi-closed block diagonalised at the point (``plan.eigen``): its implicit levels
+    and the entries of their projectors."""
     lines: list[tuple[sp.Symbol, sp.Expr]] = []
-    if plan.eigen:
-        for eb in plan.eigen:
-            lines.append((eb.holder, BlockEigen(eb.deg, eb.mult, len(eb.others), len(eb.R),
-                                                *[_freeze(o) for o in eb.others],
-                                                *[_freeze(e) for e in eb.matrix], *eb.R, *eb.Rinv)))
-            for sym, k in eb.roots:
-                if sym is not None:
-                    lines.append((sym, RootPick(eb.holder, k)))
-            nn = len(eb.projectors[0])
-            for k, syms in enumerate(eb.projectors):
-                lines += [(x, RootPick(eb.holder, eb.deg + k * nn + i)) for i, x in enumerate(syms)]
-        return lines
-    for rs in plan.roots:
-        # Fallback without a diagonalised block: the roots of the factor itself.
-        lines.append((rs.holder, RealRoots(*[_freeze(c) for c in rs.coeffs])))
-        lines += [(sym, RootPick(rs.holder, k)) for sym, k in rs.picks]
+    for eb in plan.eigen:
+        lines.append((eb.holder, BlockEigen(eb.deg, eb.mult, len(eb.others), len(eb.R),
+                                            *[_freeze(o) for o in eb.others],
+                                            *[_freeze(e) for e in eb.matrix], *eb.R, *eb.Rinv)))
+        lines += [(sym, RootPick(eb.holder, k)) for sym, k in eb.roots if sym is not None]
+        nn = len(eb.projectors[0])
+        for k, syms in enumerate(eb.projectors):
+            lines += [(x, RootPick(eb.holder, eb.deg + k * nn + i)) for i, x in enumerate(syms)]
     return lines
 
 

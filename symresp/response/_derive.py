@@ -135,19 +135,13 @@ class Derivation:
     # ------------------------------------------------------------ thermodynamics
     def boltzmann(self, a: int) -> sp.Expr:
         r""":math:`x_a = e^{-\beta (E_a - E_{\rm ref})}` per state of level a."""
-        key = ("boltzmann", a)
-        if key not in self._memo:
-            dE = self.levels[a].energy - self.levels[self.reference].energy
-            dE = sp.expand(dE) if not self.levels[a].implicit else dE
-            self._memo[key] = sp.exp(-beta * dE)
-        return self._memo[key]
+        dE = self.levels[a].energy - self.levels[self.reference].energy
+        dE = sp.expand(dE) if not self.levels[a].implicit else dE
+        return sp.exp(-beta * dE)
 
     def reduced_partition(self) -> sp.Expr:
         r""":math:`Z' = Z\, e^{\beta E_{\rm ref}} = \sum_a d_a x_a`."""
-        if "Zr" not in self._memo:
-            self._memo["Zr"] = sp.Add(*[lv.degeneracy * self.boltzmann(a)
-                                        for a, lv in enumerate(self.levels)])
-        return self._memo["Zr"]
+        return sum((lv.degeneracy * self.boltzmann(a) for a, lv in enumerate(self.levels)), sp.Integer(0))
 
     def partition(self) -> sp.Expr:
         r"""Partition function :math:`Z = \sum_a d_a e^{-\beta E_a}`."""

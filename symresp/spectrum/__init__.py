@@ -3,9 +3,9 @@
 Imports sympy, python-flint, :mod:`symresp.errors`, :mod:`symresp.algebra`, :mod:`symresp.models`.
 """
 
-from ._roots import LevelRoot
+from ._roots import LevelRoot, real_root
 from ._blocks import Block, BlockStructure, QuantumNumber, decompose
 from ._solve import BlockSolution, Factor, Part, Spectrum, clean, is_zero_number, solve
 
-__all__ = ["LevelRoot", "Block", "BlockStructure", "QuantumNumber", "decompose", "BlockSolution", "Factor",
+__all__ = ["LevelRoot", "real_root", "Block", "BlockStructure", "QuantumNumber", "decompose", "BlockSolution", "Factor",
            "Part", "Spectrum", "clean", "is_zero_number", "solve"]

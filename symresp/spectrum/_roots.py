@@ -16,7 +16,15 @@ from __future__ import annotations
 import mpmath
 import sympy as sp
 
-__all__ = ["LevelRoot"]
+__all__ = ["LevelRoot", "real_root"]
+
+
+def real_root(k: int, coeffs, ctx=mpmath.mp, extra: int = 200):
+    """k-th smallest real root (k = 0, 1, ...) of ``coeffs`` (highest power first) in the mpmath
+    context ``ctx``; imaginary parts of the coefficients and roots (rounding) are dropped."""
+    roots = ctx.polyroots([ctx.re(ctx.mpmathify(c)) for c in coeffs], maxsteps=200,
+                          extraprec=extra)
+    return sorted(ctx.re(r) for r in roots)[int(k)]
 
 
 class LevelRoot(sp.Function):
@@ -52,10 +60,8 @@ class LevelRoot(sp.Function):
             return None
         dps = mpmath.libmp.prec_to_dps(prec) + 10
         with mpmath.workdps(dps):
-            cs = [mpmath.mpmathify(sp.N(c, dps)) for c in coeffs]
-            roots = mpmath.polyroots(cs, maxsteps=200, extraprec=4 * dps)
-            real = sorted(mpmath.re(r) for r in roots)
-            return sp.Float(real[int(k)], dps)
+            value = real_root(int(k), [sp.N(c, dps) for c in coeffs], extra=4 * dps)
+            return sp.Float(value, dps)
 
     def _latex(self, printer, exp=None):
         k = self.args[0]

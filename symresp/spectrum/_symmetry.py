@@ -153,15 +153,6 @@ def _total_spin(basis: Basis) -> dict[tuple[int, int], sp.Expr] | None:
     return {k: v for k, v in S2.items() if v != 0}
 
 
-def _product(X: dict, Yrows: dict) -> dict:
-    """Sparse X @ Y with Y given by rows; exact, zeros dropped."""
-    out: dict[tuple[int, int], Fraction] = {}
-    for (r, k), v in X.items():
-        for c, w in Yrows.get(k, ()):
-            out[(r, c)] = out.get((r, c), Fraction(0)) + v * w
-    return {key: v for key, v in out.items() if v}
-
-
 def find_symmetries(basis: Basis, H: SparseForm) -> Symmetries:
     """Translation and total-spin symmetry of H on ``basis`` (None where absent)."""
     return Symmetries(_translation(basis, H), len(basis.sites), _total_spin(basis))
