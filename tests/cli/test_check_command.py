@@ -2,10 +2,7 @@
 
 from __future__ import annotations
 
-import os
 import re
-import subprocess
-import sys
 
 import pytest
 import sympy as sp
@@ -17,7 +14,8 @@ from symresp.cli import EXIT_BAD_INPUT, EXIT_FAILURE, EXIT_OK, main
 from symresp.conventions import beta
 from symresp.text import parse_scalar
 
-SUBPROCESS_TIMEOUT = 120  # seconds; each run below takes about 2 s
+from ._run import run_cli
+
 
 # Isothermal chi of M = a.z + b.z for the bundled dimer H = J S_a.S_b - h (a.z + b.z): levels
 # -3J/4 (singlet) and J/4 - h m (triplet, m = 1, 0, -1). With x = exp(-beta J) and c = cosh(beta h),
@@ -29,17 +27,6 @@ CHI_M_FLIPPED_J = "2*beta*(cosh(beta*h)*(exp(-J/T) + 1) + 2)/(exp(-J/T) + 1 + 2*
 # At h = 0 it is the Bleaney-Bowers susceptibility of an exchange-coupled spin-1/2 pair.
 # Source: B. Bleaney and K. D. Bowers, Proc. R. Soc. A 214, 451 (1952)
 BLEANEY_BOWERS = "2*beta/(3 + exp(J/T))"
-
-
-def _env() -> dict[str, str]:
-    env = dict(os.environ)
-    env.pop("SYMRESP_CASES", None)
-    return env
-
-
-def run_cli(*args: str) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "symresp.cli", *args], capture_output=True,
-                          text=True, timeout=SUBPROCESS_TIMEOUT, env=_env())
 
 
 def test_dimer_formula_reduces_to_bleaney_bowers_at_zero_field():

@@ -21,19 +21,9 @@ from symresp.cli._plot import HAVE_MATPLOTLIB
 from symresp.conventions import beta
 from symresp.text import parse_scalar
 
+from ._run import SUBPROCESS_TIMEOUT, run_cli
+
 BUNDLED = [p.stem for p in bundled_cases()]
-SUBPROCESS_TIMEOUT = 120  # seconds; every bundled case derives in well under 10 s
-
-
-def _env() -> dict[str, str]:
-    env = dict(os.environ)
-    env.pop("SYMRESP_CASES", None)
-    return env
-
-
-def run_cli(*args: str) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "symresp.cli", *args], capture_output=True,
-                          text=True, timeout=SUBPROCESS_TIMEOUT, env=_env())
 
 
 # ---------------------------------------------------------------- bundled cases, end to end
