@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import sympy as sp
 
-__all__ = ["Boltzmann", "ExpDiv", "ExpDiv2", "Keep", "LevelMin", "AtMin", "DegeneracyTol",
+__all__ = ["Boltzmann", "BoltzmannT", "ExpDiv", "ExpDiv2", "Keep", "LevelMin", "AtMin", "DegeneracyTol",
            "Causal", "BlockEigen", "RootPick", "CACHE_ONLY"]
 
 
@@ -36,6 +36,17 @@ class Boltzmann(sp.Function):
         if argindex == 2:
             return -beta * self
         raise sp.ArgumentIndexError(self, argindex)
+
+
+class BoltzmannT(sp.Function):
+    r"""``BoltzmannT(T, c)`` :math:`= e^{-c/T}`: :class:`Boltzmann` at :math:`\beta = 1/T`.
+
+    A printing form only, put in after differentiation (no ``fdiff``): a static kernel that
+    takes T needs no reciprocal of the grid when beta appears in its Boltzmann factors alone,
+    and one division is one rounding where ``(1/T) * c`` is two.
+    """
+
+    nargs = 2
 
 
 #: Argument positions (1-based) of :class:`ExpDiv` that only carry cached values: the function

@@ -25,6 +25,7 @@ from ..algebra import describe
 from ..errors import InputError
 from ..response import Derivation
 from ._eigen import eigen_plan
+from ._inplace import inplace_body
 from ._plan import Plan, build_plan, fingerprint
 from ._printers import ArrayPrinter, ScalarPrinter
 from ._program import (Program, energies_program, jacobian_program, omega_program,
@@ -45,12 +46,14 @@ def symresp_version() -> str:
 
 
 # ------------------------------------------------------------------------------ printing
-def _print_function(prog: Program, printer, name: str) -> list[str]:
+def _print_function(prog: Program, printer, name: str, inplace: bool = False) -> list[str]:
     out = [f"def {name}({', '.join(prog.args)}):"]
     if prog.unpack:
         names = ", ".join(s.name for s in prog.unpack)
         out.append(f"    ({names},) = _P")
-    for sym, expr in prog.lines:
+    if inplace:
+        out += inplace_body(prog.lines, prog.returns, printer)
+    for sym, expr in () if inplace else prog.lines:
         if isinstance(expr, sp.Add) and sym in expr.args and sym.name == "_acc":
             # Accumulate a pole sum in place: one fresh array per call, not one per pole.
             out.append(f"    {sym.name} += {printer.doprint(expr - sym)}")
@@ -65,12 +68,13 @@ def _print_function(prog: Program, printer, name: str) -> list[str]:
     return out
 
 
-def _both(prog: Program) -> list[str]:
-    """Scalar (math) and array (numpy) flavours of one program."""
+def _both(prog: Program, inplace: bool = False) -> list[str]:
+    """Scalar (math) and array (numpy) flavours of one program; ``inplace`` writes the array
+    flavour with in-place updates of its temporaries (stage B, :mod:`._inplace`)."""
     lines = _print_function(prog, ScalarPrinter({"standard": "python3"}), prog.name + "_s")
     lines.append("")
     lines.append("")
-    lines += _print_function(prog, ArrayPrinter(), prog.name + "_a")
+    lines += _print_function(prog, ArrayPrinter(), prog.name + "_a", inplace)
     return lines
 
 
@@ -263,8 +267,8 @@ def _glue(plan: Plan, has_time: bool) -> list[str]:
                 f"            and type(T) is float and T > 0{finite}{width}):",
                 f"        value = {grid}({x}, {eta}, "
                 f"_{kernel}_s(1.0 / T, _stage_p_s(_params_dynamic_s, {floats})))",
-                f"        if (type(value) is numpy.ndarray and value.dtype is {dtype}"
-                f" and value.shape == {x}.shape):",
+                # Every other argument is a number: an array result has the grid's shape.
+                f"        if type(value) is numpy.ndarray and value.dtype is {dtype}:",
                 "            return value"]
 
     for kind in ("isothermal", "isolated"):
@@ -273,10 +277,10 @@ def _glue(plan: Plan, has_time: bool) -> list[str]:
             f"{finite}):",
             "        if not T.item(T.argmin()) > 0:       # argmin finds the first NaN, if any",
             "            raise ValueError('T must be > 0 (and not nan) everywhere')",
-            f"        value = _{kind}_a(numpy.reciprocal(T), "
+            f"        value = _{kind}_a(T, "
             f"_stage_p_s(_params_{kind}_s, {floats}))",
-            "        if (type(value) is numpy.ndarray and value.dtype is _STATIC"
-            " and value.shape == T.shape):",
+            # The parameters are numbers: an array result has the shape of T.
+            "        if type(value) is numpy.ndarray and value.dtype is _STATIC:",
             "            return value",
             f"    return _static_call(_{kind}_s, _{kind}_a, _params_{kind}_s, _params_{kind}_a, "
             f"T, {tup}, None, _STATIC)"])
@@ -440,10 +444,10 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     src += ["# " + "-" * 90, "# Stage B: temperature (Boltzmann factors, pair factors).",
             "# " + "-" * 90, "", ""]
     for kind in ("isothermal", "isolated"):
-        src += _both(static_program(plan, kind, P[kind].returns)) + ["", ""]
-        src += _both(jacobian_program(exact, kind, P["jacobian"].returns)) + ["", ""]
+        src += _both(static_program(plan, kind, P[kind].returns), True) + ["", ""]
+        src += _both(jacobian_program(exact, kind, P["jacobian"].returns), True) + ["", ""]
     for what in ("omega", "spectral", "time"):
-        src += _both(poles_program(plan, what, P["dynamic"].returns)) + ["", ""]
+        src += _both(poles_program(plan, what, P["dynamic"].returns), True) + ["", ""]
     src += ["# " + "-" * 90, "# Stage W: the frequency or time grid.", "# " + "-" * 90, "", ""]
     src += _array_only(omega_program(plan)) + ["", ""]
     src += _array_only(spectral_program(plan, "lorentzian")) + ["", ""]

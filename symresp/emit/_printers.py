@@ -22,8 +22,8 @@ import sympy as sp
 from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.pycode import PythonCodePrinter
 
-from ._functions import (AtMin, BlockEigen, Boltzmann, Causal, DegeneracyTol, ExpDiv, ExpDiv2, Keep,
-                         LevelMin, RootPick)
+from ._functions import (AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal, DegeneracyTol, ExpDiv,
+                         ExpDiv2, Keep, LevelMin, RootPick)
 
 __all__ = ["ArrayPrinter", "ScalarPrinter", "freeze_constants", "DIGITS"]
 
@@ -74,6 +74,9 @@ class _ProgramPrinting:
 
     def _print_Boltzmann(self, expr: Boltzmann) -> str:
         return self._helper("bexp", *expr.args)
+
+    def _print_BoltzmannT(self, expr: BoltzmannT) -> str:
+        return self._helper("bexpt", *expr.args)
 
     def _print_ExpDiv(self, expr: ExpDiv) -> str:
         xa, xb, beta, w, _ca, _cb = expr.args

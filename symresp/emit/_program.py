@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import sympy as sp
 
-from ._functions import (AtMin, BlockEigen, Boltzmann, Causal, DegeneracyTol, ExpDiv, Keep,
+from ._functions import (AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal, DegeneracyTol, ExpDiv, Keep,
                          LevelMin, RootPick)
 from ._plan import Plan
 from ._printers import freeze_constants
@@ -37,6 +37,7 @@ __all__ = ["Program", "params_program", "static_program", "jacobian_program",
 DEGENERACY_RTOL = sp.Float("1e-9")
 
 BETA = sp.Symbol("_beta", positive=True)
+TEMPERATURE = sp.Symbol("_T", positive=True)
 _X = sp.Symbol("_x", real=True)          # omega or t on the grid
 _ETA = sp.Symbol("_eta", positive=True)
 _Z = sp.Symbol("_z")
@@ -241,14 +242,41 @@ def _prune(lines: list, outputs: list) -> list:
     return kept[::-1]
 
 
+def in_temperature(prog: Program) -> Program:
+    """``prog`` (a function of ``_beta``) as a function of ``_T``, for the static kernels.
+
+    Boltzmann factors become :class:`BoltzmannT` (e^{-c/T}, one division per level). Where
+    beta is left in one line only (the final ``beta N / Z`` of most susceptibilities) it is
+    written 1/T there, so the grid's reciprocal is never formed; otherwise a first line
+    ``_beta = 1/_T`` keeps the rest as it was. Apply after :func:`differentiate`.
+    """
+    T = TEMPERATURE
+    rows = [(sym, expr.replace(Boltzmann, lambda b, c: BoltzmannT(T, c)) if expr.has(Boltzmann)
+             else expr) for sym, expr in prog.lines]
+    returns = list(prog.returns)
+    users = [i for i, (_, e) in enumerate(rows) if e.has(BETA)]
+    in_returns = any(sp.sympify(r).has(BETA) for r in returns)  # safe: sympy objects from symresp, never user text
+    if len(users) + in_returns == 1:
+        if users:
+            sym, expr = rows[users[0]]
+            rows[users[0]] = (sym, expr.subs(BETA, 1 / T))
+        else:
+            returns = [sp.sympify(r).subs(BETA, 1 / T) for r in returns]  # safe: as above
+    elif users or in_returns:
+        rows.insert(0, (BETA, 1 / T))
+    args = tuple("_T" if a == "_beta" else a for a in prog.args)
+    return Program(prog.name, args, prog.unpack, tuple(rows), tuple(returns), prog.single)
+
+
 def static_program(plan: Plan, kind: str, unpack: tuple) -> Program:
-    """Stage B: the static susceptibility ``kind`` ("isothermal" or "isolated") at beta.
+    """Stage B: the static susceptibility ``kind`` ("isothermal" or "isolated") at ``_T``.
 
     ``unpack`` is the output tuple of the stage-P program ``params_program(plan, kind)``.
     """
     lines, chi = _static_lines(plan, kind)
     lines = _prune(lines, [chi])
-    return Program(f"_{kind}", ("_beta", "_P"), unpack, tuple(lines), (chi,), single=True)
+    return in_temperature(Program(f"_{kind}", ("_beta", "_P"), unpack, tuple(lines), (chi,),
+                                  single=True))
 
 
 def _forward(expr: sp.Expr, d: dict) -> sp.Expr:
@@ -287,7 +315,8 @@ def differentiate(lines: list, seeds: dict, tag: str) -> tuple[list, dict]:
 
 
 def jacobian_program(plan: Plan, kind: str, P_out: tuple) -> Program:
-    """Stage B: the derivatives of the static susceptibility with respect to each parameter.
+    """Stage B: the derivatives of the static susceptibility with respect to each parameter,
+    at ``_T``.
 
     ``P_out`` is the output tuple of ``params_program(plan, "jacobian")``.
     """
@@ -313,7 +342,8 @@ def jacobian_program(plan: Plan, kind: str, P_out: tuple) -> Program:
         dlines, dmap = differentiate(base, seeds, f"d{i}")
         lines += dlines
         results.append(dmap.get(chi, sp.Integer(0)))
-    return Program(f"_jacobian_{kind}", ("_beta", "_P"), P_out, tuple(lines), tuple(results))
+    return in_temperature(Program(f"_jacobian_{kind}", ("_beta", "_P"), P_out, tuple(lines),
+                                  tuple(results)))
 
 
 def poles_program(plan: Plan, what: str, unpack: tuple) -> Program:

@@ -158,17 +158,17 @@ def _static_call(kern_s, kern_a, par_s, par_a, T, params, width, dtype):
     ps, scalar = _parameters(params)
     size = _NUDGE if width is None else _NUDGE_JACOBIAN
     if scalar and type(T) is float:
-        value = kern_s(1.0 / T, _stage_p_s(par_s, ps, size))
+        value = kern_s(T, _stage_p_s(par_s, ps, size))
         return dtype.type(value).item() if width is None else numpy.array(value, dtype=dtype)
     if scalar:
         P = _stage_p_s(par_s, ps, size)
         if width is None and T.size <= _CHUNK:
             # The kernels are elementwise: the result has the shape of T already.
-            value = kern_a(numpy.reciprocal(T), P)
+            value = kern_a(T, P)
             if type(value) is numpy.ndarray and value.shape == T.shape and value.dtype == dtype:
                 return value
             return numpy.array(numpy.broadcast_to(value, T.shape), dtype=dtype)
-        # beta per chunk too: a whole-grid temporary would meet the trim threshold (_CHUNK).
+        # A chunk at a time: whole-grid temporaries would meet the trim threshold (_CHUNK).
         shape = T.shape
         Ts = T.reshape(-1)
         n = Ts.size
@@ -176,7 +176,7 @@ def _static_call(kern_s, kern_a, par_s, par_a, T, params, width, dtype):
         out = numpy.empty((n,) + full[len(shape):], dtype=dtype)
         for i in range(0, n, _CHUNK):
             s = slice(i, i + _CHUNK)
-            _store(out, s, kern_a(numpy.reciprocal(Ts[s]), P), width)
+            _store(out, s, kern_a(Ts[s], P), width)
         return out.reshape(full)
     shape = numpy.broadcast_shapes(numpy.shape(T), *(numpy.shape(p) for p in ps))
     n = math.prod(shape)
@@ -187,7 +187,7 @@ def _static_call(kern_s, kern_a, par_s, par_a, T, params, width, dtype):
     for i in range(0, n, _CHUNK):
         s = slice(i, i + _CHUNK)
         P = _stage_p_a(par_a, [p if type(p) is float else p[s] for p in flat], size)
-        _store(out, s, kern_a(numpy.reciprocal(Ts[s]), P), width)
+        _store(out, s, kern_a(Ts[s], P), width)
     return out.reshape(full)
 
 
@@ -238,6 +238,23 @@ def _bexp_a(beta, c):
         x = beta * (-c)
     else:
         x = beta * numpy.negative(c)
+    if type(x) is numpy.ndarray:
+        return numpy.exp(x, out=x)
+    return numpy.exp(x)
+
+
+# The same at beta = 1/T: exp(-c/T), one division (the static kernels take T).
+def _bexpt_s(T, c):
+    return math.exp(-c / T)
+
+
+def _bexpt_a(T, c):
+    if type(c) is float:
+        if c == 0.0:
+            return 1.0            # the lowest level: no exponential over the grid
+        x = (-c) / T
+    else:
+        x = numpy.negative(c) / T
     if type(x) is numpy.ndarray:
         return numpy.exp(x, out=x)
     return numpy.exp(x)

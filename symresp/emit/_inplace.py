@@ -1,0 +1,191 @@
+r"""Array kernels written with in-place updates of their own temporaries (layer: emit).
+
+A stage-B kernel runs on every call of a fit, over grids of a few thousand temperatures, where
+numpy spends about as long allocating each intermediate array as computing it. Printed as
+plain expressions, ``(3*x0 + x1)*T`` makes two fresh arrays; written as ``t = 3*x0; t += x1;
+t *= T`` it makes one. This module turns the straight-line program into such statements.
+
+Rules, each one needed for correctness:
+
+* only a temporary made here (a *fresh* value) is updated in place, never an argument, a
+  stage-P value or a helper's result (a helper may return one of its inputs);
+* a named line is fresh if its value was; it may be updated in place at its last use only,
+  if it occurs once in that expression and is not returned;
+* ``t op= v`` only when v is known real (sympy assumptions of the program's symbols): a real
+  v leaves the dtype of t (float or complex) unchanged, a complex one would not fit a float t;
+* factors that do not depend on temperature (stage-P values, numbers) are multiplied
+  together first: they are numbers on the fitting path, so the product costs nothing.
+
+The arrays of one kernel call all have the grid's shape or are numbers, so an in-place update
+never needs to grow its target.
+
+Imports: sympy only.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import sympy as sp
+
+__all__ = ["inplace_body"]
+
+_TEMPERATURE = ("_T", "_beta")
+
+
+@dataclass(frozen=True, slots=True)
+class _Val:
+    code: str           # a name, a literal or a parenthesised expression
+    fresh: bool         # a temporary nobody else refers to: may be updated in place
+    real: bool          # known real
+
+
+def _count(expr: sp.Expr, sym: sp.Symbol) -> int:
+    return sum(1 for node in sp.preorder_traversal(expr) if node == sym)
+
+
+class _Writer:
+    def __init__(self, printer, tdep: set, consumable: set):
+        self.printer = printer
+        self.tdep = tdep                  # names of the values that depend on the temperature
+        self.consumable = consumable      # fresh named values dead after this line
+        self.out: list[str] = []
+        self.n = 0
+
+    # ------------------------------------------------------------------ helpers
+    def temp(self, target: str | None) -> str:
+        if target is not None:
+            return target
+        self.n += 1
+        return f"_t{self.n}"
+
+    def emit(self, name: str, code: str) -> None:
+        self.out.append(f"    {name} = {code}")
+
+    def plain(self, e: sp.Expr) -> _Val:
+        code = self.printer.doprint(e)
+        if not (e.is_Symbol or e.is_Number):
+            code = f"({code})"
+        fresh = e.is_Symbol and e in self.consumable
+        return _Val(code, bool(fresh), e.is_real is True)
+
+    def varies(self, e: sp.Expr) -> bool:
+        return any(f.name in self.tdep for f in e.free_symbols)
+
+    # ------------------------------------------------------------------ nodes
+    def value(self, e: sp.Expr, target: str | None = None) -> _Val:
+        if e.is_Add and self.varies(e):
+            return self.add(e, target)
+        if e.is_Mul and self.varies(e):
+            return self.mul(e, target)
+        if e.is_Pow and e.exp.is_Integer and e.exp > 1 and self.varies(e.base):
+            base = self.value(e.base)
+            name = self.temp(target)
+            self.emit(name, f"{base.code}**{int(e.exp)}")
+            return _Val(name, True, base.real)
+        return self.plain(e)
+
+    def will_be_fresh(self, e: sp.Expr) -> bool:
+        if e.is_Symbol:
+            return e in self.consumable
+        return self.varies(e) and (e.is_Add or e.is_Mul or e.is_Pow)
+
+    def combine(self, acc: _Val, op: str, v: _Val, target: str | None) -> _Val:
+        """acc op v, in place when acc is fresh and v real (the operands swapped for + and *
+        when only v is fresh: both are exactly commutative in floating point)."""
+        if op in "+*" and v.fresh and not acc.fresh and acc.real:
+            acc, v = v, acc
+        real = acc.real and v.real
+        if acc.fresh and v.real and acc.code.isidentifier():
+            self.out.append(f"    {acc.code} {op}= {v.code}")
+            return _Val(acc.code, True, real)
+        name = self.temp(target)
+        self.emit(name, f"{acc.code} {op} {v.code}")
+        return _Val(name, True, real)
+
+    def start(self, exprs: list, target: str | None) -> tuple[_Val, list[_Val]]:
+        """The accumulator (a term expected fresh, written to ``target``) and the others."""
+        k = next((i for i, x in enumerate(exprs) if self.will_be_fresh(x)), 0)
+        acc = self.value(exprs[k], target)
+        return acc, [self.value(x) for i, x in enumerate(exprs) if i != k]
+
+    def add(self, e: sp.Expr, target: str | None) -> _Val:
+        plus = [t for t in e.args if not t.could_extract_minus_sign()]
+        minus = [-t for t in e.args if t.could_extract_minus_sign()]
+        if plus:
+            acc, rest = self.start(plus, target)
+        else:
+            first, rest = self.start(minus, None)
+            minus = minus[1:]
+            name = self.temp(target)
+            self.emit(name, f"-{first.code}")
+            acc = _Val(name, True, first.real)
+        for v in rest:
+            acc = self.combine(acc, "+", v, target)
+        for t in minus:
+            acc = self.combine(acc, "-", self.value(t), target)
+        return self.settle(acc, target)
+
+    def mul(self, e: sp.Expr, target: str | None) -> _Val:
+        num_c, num_v, den_c, den_v = [], [], [], []
+        for f in e.args:
+            if f.is_Pow and f.exp.is_Integer and f.exp < 0:
+                base = f.base if f.exp == -1 else f.base ** (-f.exp)
+                (den_v if self.varies(base) else den_c).append(base)
+            else:
+                (num_v if self.varies(f) else num_c).append(f)
+        if den_c:
+            num_c.append(1 / sp.Mul(*den_c))
+        den = None
+        if den_v:
+            den, rest = self.start(den_v, None)
+            for v in rest:
+                den = self.combine(den, "*", v, None)
+        if not num_v:
+            name = self.temp(target)
+            self.emit(name, f"{self.plain(sp.Mul(*num_c)).code}/{den.code}")
+            return _Val(name, True, den.real and sp.Mul(*num_c).is_real is True)
+        acc, rest = self.start(num_v, target)
+        if num_c:
+            rest.append(self.plain(sp.Mul(*num_c)))
+        for v in rest:
+            acc = self.combine(acc, "*", v, target)
+        if den is not None:
+            acc = self.combine(acc, "/", den, target)
+        return self.settle(acc, target)
+
+    def settle(self, acc: _Val, target: str | None) -> _Val:
+        if target is not None and acc.code != target:
+            self.emit(target, acc.code)
+            return _Val(target, acc.fresh, acc.real)
+        return acc
+
+
+def inplace_body(lines, returns, printer) -> list[str]:
+    """Statements of an array kernel computing ``lines`` (pairs (symbol, expression)).
+
+    The temperature-dependent values are ``_T``, ``_beta`` and every line computed from them.
+    """
+    tdep = set(_TEMPERATURE)
+    for sym, expr in lines:
+        if any(f.name in tdep for f in expr.free_symbols):
+            tdep.add(sym.name)
+    returned = set().union(*[sp.sympify(r).free_symbols for r in returns]) if returns else set()  # safe: sympy objects from symresp, never user text
+    last_use: dict[sp.Symbol, int] = {}
+    for i, (_, expr) in enumerate(lines):
+        for f in expr.free_symbols:
+            last_use[f] = i
+    fresh_names: set = set()
+    out: list[str] = []
+    for i, (sym, expr) in enumerate(lines):
+        consumable = {s for s in fresh_names
+                      if last_use.get(s) == i and s not in returned and _count(expr, s) == 1}
+        w = _Writer(printer, tdep, consumable)
+        v = w.value(expr, sym.name)
+        if v.code != sym.name:
+            w.out.append(f"    {sym.name} = {printer.doprint(expr)}")
+        out += w.out
+        fresh_names -= consumable
+        if v.fresh:
+            fresh_names.add(sym)
+    return out
