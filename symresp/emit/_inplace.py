@@ -10,9 +10,12 @@ Rules, each one needed for correctness:
 * only a temporary made here (a *fresh* value) is updated in place, never an argument, a
   stage-P value or a helper's result (a helper may return one of its inputs);
 * a named line is fresh if its value was; it may be updated in place at its last use only,
-  if it occurs once in that expression and is not returned;
-* ``t op= v`` only when v is known real (sympy assumptions of the program's symbols): a real
-  v leaves the dtype of t (float or complex) unchanged, a complex one would not fit a float t;
+  if it occurs once in that expression and is not returned; a line that is just another
+  name, or passes a name to a helper, takes that name's freshness away (they may be one
+  array);
+* ``t op= v`` only when v is known real (sympy assumptions of the program's symbols, the
+  inputs the caller knows real, and lines computed from real values): a real v leaves the
+  dtype of t (float or complex) unchanged, a complex one would not fit a float t;
 * factors that do not depend on temperature (stage-P values, numbers) are multiplied
   together first: they are numbers on the fitting path, so the product costs nothing.
 
@@ -45,8 +48,9 @@ def _count(expr: sp.Expr, sym: sp.Symbol) -> int:
 
 
 class _Writer:
-    def __init__(self, printer, tdep: set, consumable: set):
+    def __init__(self, printer, tdep: set, consumable: set, real_names: set):
         self.printer = printer
+        self.real_names = real_names      # names of values known real beyond their symbols
         self.tdep = tdep                  # names of the values that depend on the temperature
         self.consumable = consumable      # fresh named values dead after this line
         self.out: list[str] = []
@@ -67,7 +71,14 @@ class _Writer:
         if not (e.is_Symbol or e.is_Number):
             code = f"({code})"
         fresh = e.is_Symbol and e in self.consumable
-        return _Val(code, bool(fresh), e.is_real is True)
+        return _Val(code, bool(fresh), self.is_real(e))
+
+    def is_real(self, e: sp.Expr) -> bool:
+        if e.is_real:
+            return True
+        subs = {s: sp.Symbol(s.name, real=True) for s in e.free_symbols
+                if s.name in self.real_names and not s.is_real}
+        return bool(subs) and e.xreplace(subs).is_real is True
 
     def varies(self, e: sp.Expr) -> bool:
         return any(f.name in self.tdep for f in e.free_symbols)
@@ -144,7 +155,7 @@ class _Writer:
         if not num_v:
             name = self.temp(target)
             self.emit(name, f"{self.plain(sp.Mul(*num_c)).code}/{den.code}")
-            return _Val(name, True, den.real and sp.Mul(*num_c).is_real is True)
+            return _Val(name, True, den.real and self.is_real(sp.Mul(*num_c)))
         acc, rest = self.start(num_v, target)
         if num_c:
             rest.append(self.plain(sp.Mul(*num_c)))
@@ -161,11 +172,14 @@ class _Writer:
         return acc
 
 
-def inplace_body(lines, returns, printer) -> list[str]:
+def inplace_body(lines, returns, printer, real_inputs=frozenset()) -> list[str]:
     """Statements of an array kernel computing ``lines`` (pairs (symbol, expression)).
 
     The temperature-dependent values are ``_T``, ``_beta`` and every line computed from them.
+    ``real_inputs`` names inputs known real beyond their symbols' assumptions (the weights of
+    a response the plan shows real); a line whose value is found real is known real too.
     """
+    real_names = set(real_inputs)
     tdep = set(_TEMPERATURE)
     for sym, expr in lines:
         if any(f.name in tdep for f in expr.free_symbols):
@@ -180,12 +194,24 @@ def inplace_body(lines, returns, printer) -> list[str]:
     for i, (sym, expr) in enumerate(lines):
         consumable = {s for s in fresh_names
                       if last_use.get(s) == i and s not in returned and _count(expr, s) == 1}
-        w = _Writer(printer, tdep, consumable)
+        w = _Writer(printer, tdep, consumable, real_names)
         v = w.value(expr, sym.name)
+        if v.real or w.is_real(expr):
+            real_names.add(sym.name)
         if v.code != sym.name:
             w.out.append(f"    {sym.name} = {printer.doprint(expr)}")
         out += w.out
-        fresh_names -= consumable
-        if v.fresh:
+        fresh_names -= consumable | _shared(expr)
+        if v.fresh and not expr.is_Symbol:
             fresh_names.add(sym)
     return out
+
+
+def _shared(expr: sp.Expr) -> set:
+    """Symbols whose value ``expr`` may hand on as it is: the whole expression, or arguments
+    of a helper call (a helper may return one of its inputs). They are no longer fresh."""
+    if expr.is_Symbol:
+        return {expr}
+    if expr.is_Add or expr.is_Mul or expr.is_Pow:
+        return set().union(*[_shared(a) for a in expr.args if not a.is_Symbol])
+    return set(expr.free_symbols)

@@ -46,13 +46,14 @@ def symresp_version() -> str:
 
 
 # ------------------------------------------------------------------------------ printing
-def _print_function(prog: Program, printer, name: str, inplace: bool = False) -> list[str]:
+def _print_function(prog: Program, printer, name: str, inplace: bool = False,
+                    real: bool = False) -> list[str]:
     out = [f"def {name}({', '.join(prog.args)}):"]
     if prog.unpack:
         names = ", ".join(s.name for s in prog.unpack)
         out.append(f"    ({names},) = _P")
     if inplace:
-        out += inplace_body(prog.lines, prog.returns, printer)
+        out += inplace_body(prog.lines, prog.returns, printer, _real_inputs(prog, real))
     for sym, expr in () if inplace else prog.lines:
         if isinstance(expr, sp.Add) and sym in expr.args and sym.name == "_acc":
             # Accumulate a pole sum in place: one fresh array per call, not one per pole.
@@ -68,13 +69,22 @@ def _print_function(prog: Program, printer, name: str, inplace: bool = False) ->
     return out
 
 
-def _both(prog: Program, inplace: bool = False) -> list[str]:
+def _real_inputs(prog: Program, real: bool) -> set[str]:
+    """Unpacked stage-P values known real: all of them when the plan shows the values of the
+    program real, else the energy derivatives (levels of a Hermitian H are real)."""
+    if real:
+        return {s.name for s in prog.unpack}
+    return {s.name for s in prog.unpack if s.name.startswith("_E") and "_d" in s.name}
+
+
+def _both(prog: Program, inplace: bool = False, real: bool = False) -> list[str]:
     """Scalar (math) and array (numpy) flavours of one program; ``inplace`` writes the array
-    flavour with in-place updates of its temporaries (stage B, :mod:`._inplace`)."""
+    flavour with in-place updates of its temporaries (stage B, :mod:`._inplace`), ``real``
+    says every stage-P value it reads is real."""
     lines = _print_function(prog, ScalarPrinter({"standard": "python3"}), prog.name + "_s")
     lines.append("")
     lines.append("")
-    lines += _print_function(prog, ArrayPrinter(), prog.name + "_a", inplace)
+    lines += _print_function(prog, ArrayPrinter(), prog.name + "_a", inplace, real)
     return lines
 
 
@@ -403,7 +413,8 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
          for kind in ("isothermal", "isolated", "jacobian", "dynamic")}
 
     static_vals = [p.S for p in exact.pairs] + list(exact.fluctuation) + list(exact.mean_a) + list(exact.mean_b)
-    static_dtype = "complex" if exact.is_complex(*static_vals) else "float"
+    static_real = not exact.is_complex(*static_vals)
+    static_dtype = "float" if static_real else "complex"
     wave_complex = exact.is_complex(*[p.S for p in exact.pairs]) or any(p.D != 0 for p in exact.pairs)
     wave_dtype = "complex" if wave_complex else "float"
     has_time = plan.prescription == 1
@@ -444,10 +455,12 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     src += ["# " + "-" * 90, "# Stage B: temperature (Boltzmann factors, pair factors).",
             "# " + "-" * 90, "", ""]
     for kind in ("isothermal", "isolated"):
-        src += _both(static_program(plan, kind, P[kind].returns), True) + ["", ""]
-        src += _both(jacobian_program(exact, kind, P["jacobian"].returns), True) + ["", ""]
+        src += _both(static_program(plan, kind, P[kind].returns), True, static_real) + ["", ""]
+        src += _both(jacobian_program(exact, kind, P["jacobian"].returns), True,
+                     static_real) + ["", ""]
     for what in ("omega", "spectral", "time"):
-        src += _both(poles_program(plan, what, P["dynamic"].returns), True) + ["", ""]
+        src += _both(poles_program(plan, what, P["dynamic"].returns), True,
+                     not wave_complex) + ["", ""]
     src += ["# " + "-" * 90, "# Stage W: the frequency or time grid.", "# " + "-" * 90, "", ""]
     src += _array_only(omega_program(plan)) + ["", ""]
     src += _array_only(spectral_program(plan, "lorentzian")) + ["", ""]
