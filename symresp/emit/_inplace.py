@@ -125,9 +125,8 @@ class _Writer:
         minus = [-t for t in e.args if t.could_extract_minus_sign()]
         if plus:
             acc, rest = self.start(plus, target)
-        else:
-            first, rest = self.start(minus, None)
-            minus = minus[1:]
+        else:                                   # -a - b - ...: negate the first term
+            first, rest = self.value(minus.pop(0)), []
             name = self.temp(target)
             self.emit(name, f"-{first.code}")
             acc = _Val(name, True, first.real)

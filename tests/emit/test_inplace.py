@@ -35,13 +35,13 @@ def programs(draw):
     values = list(INPUTS)
     lines = []
     for k in range(draw(st.integers(1, 7))):
-        op = draw(st.sampled_from(["add", "sub", "mul", "div", "sq", "lin"]))
+        op = draw(st.sampled_from(["add", "sub", "mul", "div", "sq", "lin", "neg"]))
         a, b, c = (draw(st.sampled_from(values)) for _ in range(3))
         positive = [v for v in values if v.is_positive]
         n = sp.Integer(draw(st.integers(-3, 3)) or 2)
         expr = {"add": a + b + c, "sub": a - n * b, "mul": n * a * b * c,
                 "div": a * b / draw(st.sampled_from(positive)), "sq": a ** 2 + b,
-                "lin": n * a + P_POS * b + c * T}[op]
+                "lin": n * a + P_POS * b + c * T, "neg": -a - abs(n) * b * T - c}[op]
         if expr == 0 or expr.is_number:
             expr = expr + T
         sym = sp.Symbol(f"_v{k}", positive=True) if expr.is_positive else (
