@@ -260,6 +260,33 @@ def _bexpt_a(T, c):
     return numpy.exp(x)
 
 
+# All Boltzmann factors at once, a row per level: X[a] = exp(-c_a/T) (c_a >= 0). Rows are
+# contiguous, so the elementwise work on one level's row runs at full speed.
+def _bexpt_m(T, cs):
+    if all(type(c) is float for c in cs):
+        X = numpy.divide.outer(numpy.negative(cs), T)
+    else:
+        X = numpy.array([numpy.broadcast_to(c, T.shape) for c in cs], dtype=float)
+        numpy.negative(X, out=X)
+        X /= T
+    return numpy.exp(X, out=X)
+
+
+# sum_a coefs[a] X[a]: one vector-matrix product when the coefficients are numbers (a fit),
+# row by row when they vary along the grid (parameters given as arrays).
+def _lincomb_a(X, coefs):
+    try:
+        v = numpy.array(coefs)
+    except ValueError:          # numbers mixed with arrays
+        v = None
+    if v is not None and v.ndim == 1 and v.dtype.kind in "fic":
+        return (v @ X.reshape(len(v), -1)).reshape(X.shape[1:])
+    out = coefs[0] * X[0]
+    for c, row in zip(coefs[1:], X[1:]):
+        out = out + c * row
+    return out
+
+
 # Thermal pair factor (x_a - x_b)/(beta w) = max(x_a, x_b) phi(beta |w|), w = E_b - E_a.
 def _expdiv_s(xa, xb, beta, w):
     y = beta * abs(w)

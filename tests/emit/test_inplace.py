@@ -8,6 +8,7 @@ every returned or still-needed value untouched.
 
 from __future__ import annotations
 
+import math
 import os
 
 import numpy as np
@@ -20,13 +21,15 @@ from symresp.emit import compile_module, numpy_module_source
 from symresp.emit._functions import BoltzmannT
 from symresp.emit._inplace import inplace_body
 from symresp.emit._printers import ArrayPrinter
+from symresp.emit._runtime import RUNTIME
 
 T = sp.Symbol("_T", positive=True)
 P_REAL = sp.Symbol("_p", real=True)
 P_POS = sp.Symbol("_q", positive=True)
 P_CPLX = sp.Symbol("_C0", real=False)          # complex at run time
 P_WEIGHT = sp.Symbol("_S0", real=False)        # real at run time, passed as a real input
-INPUTS = (T, P_REAL, P_POS, P_CPLX, P_WEIGHT)
+OFFSETS = tuple(sp.Symbol(f"_c{a}", nonnegative=True) for a in range(6))
+INPUTS = (T, P_REAL, P_POS, P_CPLX, P_WEIGHT) + OFFSETS
 
 
 @st.composite
@@ -34,6 +37,18 @@ def programs(draw):
     """Lines ``_v{k} = f(earlier values)`` with +, -, *, / (by positive values) and squares."""
     values = list(INPUTS)
     lines = []
+    # Boltzmann factors first, as in a kernel (from STACK_MIN of them on: one array).
+    for a in range(draw(st.integers(0, len(OFFSETS)))):
+        x = sp.Symbol(f"_x{a}", positive=True)
+        lines.append((x, BoltzmannT(T, OFFSETS[a])))
+        values.append(x)
+    if draw(st.booleans()) and len(lines) >= 2:
+        # A partition-like sum over the factors, with numbers and stage-P coefficients.
+        coefs = [draw(st.sampled_from([sp.Integer(1), sp.Integer(3), P_REAL, P_WEIGHT, P_CPLX]))
+                 for _ in lines]
+        z = sp.Symbol("_Zs")
+        lines.append((z, sp.Add(*[c * x for c, (x, _) in zip(coefs, lines)])))
+        values.append(z)
     for k in range(draw(st.integers(1, 7))):
         op = draw(st.sampled_from(["add", "sub", "mul", "div", "sq", "lin", "neg"]))
         a, b, c = (draw(st.sampled_from(values)) for _ in range(3))
@@ -53,9 +68,10 @@ def programs(draw):
 
 
 def _run(body: list[str], returned, env: dict) -> tuple:
-    src = "def _kernel(_T, _p, _q, _C0, _S0):\n" + "\n".join(body) + \
+    src = f"def _kernel({', '.join(s.name for s in INPUTS)}):\n" + "\n".join(body) + \
         f"\n    return ({', '.join(s.name for s in returned)},)\n"
-    namespace = {"numpy": np}
+    namespace: dict = {"numpy": np, "math": math}
+    exec(compile(RUNTIME, "<runtime>", "exec"), namespace)  # noqa: S102 - the emitted helpers
     exec(compile(src, "<kernel>", "exec"), namespace)  # noqa: S102 - generated test code
     return namespace["_kernel"](*(env[s.name] for s in INPUTS))
 
@@ -66,7 +82,8 @@ def test_inplace_kernel_equals_plain_evaluation_and_keeps_inputs(prog, seed):
     lines, returned = prog
     rng = np.random.default_rng(seed)
     env = {"_T": rng.uniform(0.5, 2.0, 9), "_p": float(rng.normal()), "_q": float(rng.uniform(0.5, 2)),
-           "_C0": complex(rng.normal(), rng.normal()), "_S0": float(rng.normal())}
+           "_C0": complex(rng.normal(), rng.normal()), "_S0": float(rng.normal()),
+           **{c.name: float(v) for c, v in zip(OFFSETS, rng.uniform(0, 3, len(OFFSETS)))}}
     saved = env["_T"].copy()
     printer = ArrayPrinter()
     plain = [f"    {s.name} = {printer.doprint(e)}" for s, e in lines]
@@ -103,3 +120,23 @@ def test_emitted_functions_leave_their_arguments_untouched():
         f(T, Js, 0.3)
     for arr, copy in zip((T, Js, hs), copies):
         assert np.array_equal(arr, copy)
+
+
+def test_stacked_levels_agree_on_every_path():
+    # Four levels (dimer in a field): Boltzmann factors as one array, sums as products with
+    # it. Grids, parameter arrays and single numbers must give the same numbers.
+    J, h = sp.Symbol("J", real=True), sp.Symbol("h", real=True)
+    a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    r = sr.Model(J * (a.vec @ b.vec) + h * (a.z + b.z), name="dimer").response(a.z + b.z)
+    src = numpy_module_source(r.derivation)
+    assert "_bexpt_m(" in src and "_lincomb_a(_X" in src
+    mod = compile_module(src)
+    T = np.linspace(0.1, 3.0, 12).reshape(3, 4)
+    Js, hs = np.linspace(-1, 1, 12).reshape(3, 4), np.linspace(0, 0.5, 12).reshape(3, 4)
+    pointwise = np.vectorize(lambda t, j, f: mod.chi_isothermal(float(t), float(j), float(f)))
+    np.testing.assert_allclose(mod.chi_isothermal(T, Js, hs), pointwise(T, Js, hs), rtol=1e-13)
+    np.testing.assert_allclose(mod.chi_isothermal(T, 0.7, 0.2), pointwise(T, 0.7, 0.2), rtol=1e-13)
+    jac = mod.jacobian_static(T, Js, hs)
+    for idx in np.ndindex(T.shape):
+        np.testing.assert_allclose(jac[idx], mod.jacobian_static(T[idx], Js[idx], hs[idx]),
+                                   rtol=1e-12, atol=1e-15)
