@@ -315,14 +315,54 @@ def _expdiv_a(xa, xb, beta, w):
 
 def _psi_s(y):
     if y < _SERIES:
-        return -0.5 + y * (1 / 6 - y * (1 / 24 - y * (1 / 120 - y / 720)))
+        return _psi_series(y)
     return (-math.expm1(-y) - y) / (y * y)
 
 
 def _psiphi_s(y):
     if y < _SERIES:
-        return 0.5 - y * (1 / 3 - y * (1 / 8 - y * (1 / 30 - y / 144)))
+        return _psiphi_series(y)
     return (-math.expm1(-y) - y * math.exp(-y)) / (y * y)
+
+
+# psi and psi + phi over a grid y >= 0 (fresh arrays; y is overwritten).
+def _psi_grid(y):
+    if y.size and y.min() < _SERIES:
+        small = y < _SERIES
+        ys = numpy.where(small, 1.0, y)
+        return numpy.where(small, _psi_series(y), (-numpy.expm1(-ys) - ys) / (ys * ys))
+    out = numpy.negative(y)
+    numpy.expm1(out, out=out)
+    numpy.negative(out, out=out)
+    out -= y
+    y *= y
+    out /= y
+    return out
+
+
+def _psiphi_grid(y):
+    if y.size and y.min() < _SERIES:
+        small = y < _SERIES
+        ys = numpy.where(small, 1.0, y)
+        return numpy.where(small, _psiphi_series(y),
+                           (-numpy.expm1(-ys) - ys * numpy.exp(-ys)) / (ys * ys))
+    e = numpy.negative(y)
+    out = numpy.expm1(e)
+    numpy.exp(e, out=e)
+    e *= y
+    out += e
+    numpy.negative(out, out=out)
+    y *= y
+    out /= y
+    return out
+
+
+def _psi_series(y):
+    return -0.5 + y * (1 / 6 - y * (1 / 24 - y * (1 / 120 - y / 720)))
+
+
+def _psiphi_series(y):
+    return 0.5 - y * (1 / 3 - y * (1 / 8 - y * (1 / 30 - y / 144)))
 
 
 # d/du_a of (e^u_a - e^u_b)/(u_a - u_b): -x_a psi(y) if level a is lower, else x_b (psi + phi).
@@ -332,14 +372,23 @@ def _expdiv2_s(xa, xb, beta, w):
 
 
 def _expdiv2_a(xa, xb, beta, w):
+    if type(w) is float and type(beta) is numpy.ndarray:
+        # One spacing over a grid (a fit): only the branch its sign selects, and the series
+        # only if some point needs it.
+        y = beta * abs(w)
+        if w >= 0:
+            out = _psi_grid(y)
+            out *= xa
+            return numpy.negative(out, out=out)
+        out = _psiphi_grid(y)
+        out *= xb
+        return out
     y = numpy.asarray(beta * numpy.abs(w), dtype=float)
     small = y < _SERIES
     ys = numpy.where(small, 1.0, y)
     em1 = -numpy.expm1(-ys)
-    psi = numpy.where(small, -0.5 + y * (1 / 6 - y * (1 / 24 - y * (1 / 120 - y / 720))),
-                      (em1 - ys) / (ys * ys))
-    psiphi = numpy.where(small, 0.5 - y * (1 / 3 - y * (1 / 8 - y * (1 / 30 - y / 144))),
-                         (em1 - ys * numpy.exp(-ys)) / (ys * ys))
+    psi = numpy.where(small, _psi_series(y), (em1 - ys) / (ys * ys))
+    psiphi = numpy.where(small, _psiphi_series(y), (em1 - ys * numpy.exp(-ys)) / (ys * ys))
     return numpy.where(numpy.asarray(w) >= 0, -xa * psi, xb * psiphi)
 
 
