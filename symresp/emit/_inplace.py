@@ -57,9 +57,12 @@ def _count(expr: sp.Expr, sym: sp.Symbol) -> int:
 
 
 class _Writer:
-    def __init__(self, printer, tdep: set, consumable: set, real_names: set, rows: dict):
+    def __init__(self, printer, tdep: set, consumable: set, real_names: set, rows: dict,
+                 scaled: dict):
         self.printer = printer
         self.rows = rows                  # Boltzmann factor symbol -> its row of _X
+        self.scaled = scaled              # symbol -> (row, coefficient, temperature factor)
+        self.used: set = set()            # symbols the written statements read
         self.real_names = real_names      # names of values known real beyond their symbols
         self.tdep = tdep                  # names of the values that depend on the temperature
         self.consumable = consumable      # fresh named values dead after this line
@@ -77,6 +80,7 @@ class _Writer:
         self.out.append(f"    {name} = {code}")
 
     def plain(self, e: sp.Expr) -> _Val:
+        self.used |= e.free_symbols
         code = self.printer.doprint(e)
         if not (e.is_Symbol or e.is_Number):
             code = f"({code})"
@@ -130,39 +134,46 @@ class _Writer:
         acc = self.value(exprs[k], target)
         return acc, [self.value(x) for i, x in enumerate(exprs) if i != k]
 
-    def linear(self, t: sp.Expr) -> tuple[sp.Expr, int] | None:
-        """(coefficient, row) if t is a temperature-free coefficient times one row of _X."""
-        if t in self.rows:
-            return sp.Integer(1), self.rows[t]
-        if t.is_Mul:
-            xs = [f for f in t.args if f in self.rows]
-            if len(xs) == 1:
-                coef = t / xs[0]
-                if not self.varies(coef):
-                    return coef, self.rows[xs[0]]
-        return None
+    def linear(self, t: sp.Expr) -> tuple[sp.Expr, int, sp.Expr] | None:
+        """(coefficient, row, factor) if t = coefficient * factor * (row of _X), with a
+        temperature-free coefficient; a scaled row (``x_a`` times such factors, e.g. the
+        derivative -beta E'_a x_a) counts as its row."""
+        factors = list(t.args) if t.is_Mul else [t]
+        hits = [k for k, f in enumerate(factors) if f in self.rows or f in self.scaled]
+        if len(hits) != 1:
+            return None
+        x = factors.pop(hits[0])
+        row, coef, factor = (self.rows[x], sp.Integer(1), sp.Integer(1)) if x in self.rows \
+            else self.scaled[x]
+        for f in factors:
+            if self.varies(f):
+                factor *= f
+            else:
+                coef *= f
+        return coef, row, factor
 
     def lincomb(self, terms: list, target: str | None) -> _Val | None:
-        """The part of a sum that is sum_a coef_a x_a, as one product with _X (removed from
-        ``terms``); None where fewer than STACK_MIN levels take part."""
+        """The part of a sum that is factor * sum_a coef_a x_a, as one product with _X
+        (removed from ``terms``); None where fewer than STACK_MIN levels take part."""
         if not self.rows:
             return None
-        coefs: dict[int, sp.Expr] = {}
-        taken = []
+        groups: dict[sp.Expr, dict[int, tuple[sp.Expr, sp.Expr]]] = {}
         for t in terms:
             lin = self.linear(t)
-            if lin is not None and lin[1] not in coefs:
-                coefs[lin[1]] = lin[0]
-                taken.append(t)
-        if len(coefs) < STACK_MIN:
+            if lin is not None and lin[1] not in groups.setdefault(lin[2], {}):
+                groups[lin[2]][lin[1]] = (lin[0], t)
+        factor, best = max(groups.items(), key=lambda kv: len(kv[1]), default=(None, {}))
+        if len(best) < STACK_MIN:
             return None
-        for t in taken:
+        for _, t in best.values():
             terms.remove(t)
-        vec = ", ".join(self.printer.doprint(coefs.get(k, sp.Integer(0)))
+        vec = ", ".join(self.printer.doprint(best[k][0] if k in best else sp.Integer(0))
                         for k in range(len(self.rows)))
+        self.used |= set().union(*[best[k][0].free_symbols for k in best])
         name = self.temp(target)
         self.emit(name, f"_lincomb_a(_X, ({vec},))")
-        return _Val(name, True, all(self.is_real(c) for c in coefs.values()))
+        acc = _Val(name, True, all(self.is_real(c) for c, _ in best.values()))
+        return acc if factor == 1 else self.combine(acc, "*", self.value(factor), target)
 
     def add(self, e: sp.Expr, target: str | None) -> _Val:
         terms = list(e.args)
@@ -238,29 +249,66 @@ def inplace_body(lines, returns, printer, real_inputs=frozenset()) -> list[str]:
             last_use[f] = i
     boltzmann = [(sym, expr) for sym, expr in lines if isinstance(expr, BoltzmannT)]
     rows = {sym: k for k, (sym, _) in enumerate(boltzmann)} if len(boltzmann) >= STACK_MIN else {}
+    scaled = _scaled_rows(lines, rows, tdep)
     fresh_names: set = set()
-    out: list[str] = []
+    blocks: list[tuple[sp.Symbol, list[str], set]] = []     # (symbol, statements, reads)
     for i, (sym, expr) in enumerate(lines):
         if sym in rows:
+            head = []
             if rows[sym] == 0:            # all levels at once (their offsets are inputs)
                 cs = "".join(f"{printer.doprint(e.args[1])}, " for _, e in boltzmann)
-                out.append(f"    _X = _bexpt_m({printer.doprint(expr.args[0])}, ({cs}))")
-            if sym in last_use or sym in returned:
-                out.append(f"    {sym.name} = _X[{rows[sym]}]")     # a view: never fresh
+                head.append(f"    _X = _bexpt_m({printer.doprint(expr.args[0])}, ({cs}))")
+            blocks.append((None, head, set()))
+            blocks.append((sym, [f"    {sym.name} = _X[{rows[sym]}]"], set()))   # a view
             real_names.add(sym.name)
             continue
         consumable = {s for s in fresh_names
                       if last_use.get(s) == i and s not in returned and _count(expr, s) == 1}
-        w = _Writer(printer, tdep, consumable, real_names, rows)
+        w = _Writer(printer, tdep, consumable, real_names, rows, scaled)
         v = w.value(expr, sym.name)
         if v.real or w.is_real(expr):
             real_names.add(sym.name)
         if v.code != sym.name:
+            w.used |= expr.free_symbols
             w.out.append(f"    {sym.name} = {printer.doprint(expr)}")
-        out += w.out
+        blocks.append((sym, w.out, w.used))
         fresh_names -= consumable | _shared(expr)
         if v.fresh and not expr.is_Symbol:
             fresh_names.add(sym)
+    # Rows and scaled rows that no statement kept reads (the sums took them from _X) go.
+    live = set(returned)
+    kept: list[list[str]] = []
+    for sym, stmts, reads in reversed(blocks):
+        if sym is not None and (sym in rows or sym in scaled) and sym not in live:
+            continue
+        live |= reads
+        kept.append(stmts)
+    return [line for stmts in reversed(kept) for line in stmts]
+
+
+def _scaled_rows(lines, rows: dict, tdep: set) -> dict:
+    """Lines ``s = coefficient * factor * x_a`` (one row of _X, a temperature-free coefficient,
+    a factor of the temperature alone, e.g. beta): s -> (row, coefficient, factor)."""
+    out = {}
+    for sym, expr in lines:
+        if not rows or not expr.is_Mul:
+            continue
+        xs = [f for f in expr.args if f in rows]
+        if len(xs) != 1:
+            continue
+        coef, factor = sp.Integer(1), sp.Integer(1)
+        for f in expr.args:
+            if f is xs[0]:
+                continue
+            names = {g.name for g in f.free_symbols}
+            if names & set(_TEMPERATURE) and names <= set(_TEMPERATURE):
+                factor *= f
+            elif names & tdep:
+                break
+            else:
+                coef *= f
+        else:
+            out[sym] = (rows[xs[0]], coef, factor)
     return out
 
 

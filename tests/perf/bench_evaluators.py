@@ -18,6 +18,10 @@ Routes, each evaluating a whole grid for one parameter point:
                    chi(omega) = 2 Delta tanh(beta Delta / 2) / (Delta^2 - z^2);
 (d) ``lambdify``   ``sympy.lambdify`` (numpy) of the unsimplified Lehmann sum.
 
+On the 4-site ring at 1e3 points the parameter Jacobian of chi_T is timed too: the emitted
+``jacobian_static`` against central differences (two calls per parameter) of the emitted values
+and of ED.
+
 Timings are the minimum over interleaved rounds (the routes of one row alternate), so the ratios
 printed are measured in the same run under the same load; BLAS runs on one thread. The last
 line reads::
@@ -181,6 +185,29 @@ def hand_two_level(omega, T, D, *, eta):
     return 2 * D * np.tanh(D / (2 * T)) / (D * D - z * z)
 
 
+def _central(f, T, theta, k):
+    """Central difference of f(T, *theta) in parameter k (step 1e-6 relative)."""
+    step = 1e-6 * max(1.0, abs(theta[k]))
+    up = list(theta)
+    dn = list(theta)
+    up[k] += step
+    dn[k] -= step
+    return (f(T, *up) - f(T, *dn)) / (2 * step)
+
+
+def _jacobian_row(mod, ed, T, theta, budget) -> None:
+    """The parameter Jacobian a fit asks for: emitted, or central differences (2 calls per
+    parameter) of the emitted values or of ED."""
+    fd = np.stack([_central(mod.chi_isothermal, T, theta, k) for k in range(len(theta))], -1)
+    assert np.allclose(mod.jacobian_static(T, *theta), fd, rtol=1e-5, atol=1e-7)
+    times = interleaved({
+        "emitted": lambda: mod.jacobian_static(T, *theta),
+        "emitted FD": lambda: [_central(mod.chi_isothermal, T, theta, k) for k in range(len(theta))],
+        "ED FD": lambda: [_central(ed.static, T, theta, k) for k in range(len(theta))]},
+        budget=budget)
+    _row(f"Jacobian of chi_T ({len(theta)} parameters)", times)
+
+
 # ------------------------------------------------------------------------------ timing
 def interleaved(calls: dict, *, budget: float) -> dict:
     """Minimum seconds per call of each callable, rounds alternating between them."""
@@ -274,6 +301,8 @@ def main(argv=None) -> int:
             _row(f"chi(omega) S^z_0, N = {N:.0e}", times)
             if bench.dim == 16 and N == 10**3:
                 ed16 = times["ED"] / times["emitted"]
+            if bench.dim == 16 and N == 10**3:
+                _jacobian_row(mod_s, ed_s, T, theta, budget)
 
     tls = _two_level()
     mod = compile_module(numpy_module_source(tls.derivation))
