@@ -250,6 +250,9 @@ def inplace_body(lines, returns, printer, real_inputs=frozenset()) -> list[str]:
     boltzmann = [(sym, expr) for sym, expr in lines if isinstance(expr, BoltzmannT)]
     rows = {sym: k for k, (sym, _) in enumerate(boltzmann)} if len(boltzmann) >= STACK_MIN else {}
     scaled = _scaled_rows(lines, rows, tdep)
+    probe = _Writer(printer, tdep, set(), real_names, rows, scaled)
+    batch = _pure_sums(lines, returned, probe)
+    batch_real = all(probe.is_real(c) for _, coefs, _ in batch.values() for c in coefs)
     fresh_names: set = set()
     blocks: list[tuple[sp.Symbol, list[str], set]] = []     # (symbol, statements, reads)
     for i, (sym, expr) in enumerate(lines):
@@ -258,9 +261,28 @@ def inplace_body(lines, returns, printer, real_inputs=frozenset()) -> list[str]:
             if rows[sym] == 0:            # all levels at once (their offsets are inputs)
                 cs = "".join(f"{printer.doprint(e.args[1])}, " for _, e in boltzmann)
                 head.append(f"    _X = _bexpt_m({printer.doprint(expr.args[0])}, ({cs}))")
+                if batch:
+                    mat = "".join("(" + "".join(f"{printer.doprint(c)}, " for c in coefs) + "), "
+                                  for _, coefs, _ in sorted(batch.values(), key=lambda b: b[0]))
+                    head.append(f"    _S = _lincomb_m(_X, ({mat}))")
             blocks.append((None, head, set()))
             blocks.append((sym, [f"    {sym.name} = _X[{rows[sym]}]"], set()))   # a view
             real_names.add(sym.name)
+            continue
+        if sym in batch:                  # a row of _S, this line's alone: fresh
+            k, _, factor = batch[sym]
+            stmts = [f"    {sym.name} = _S[{k}]"]
+            w = _Writer(printer, tdep, set(), real_names, rows, scaled)
+            real = batch_real
+            if factor != 1:
+                fv = w.value(factor)
+                real = real and fv.real
+                stmts += w.out + [f"    {sym.name} *= {fv.code}" if fv.real
+                                  else f"    {sym.name} = {sym.name} * {fv.code}"]
+            if real:
+                real_names.add(sym.name)
+            blocks.append((sym, stmts, w.used))
+            fresh_names.add(sym)
             continue
         consumable = {s for s in fresh_names
                       if last_use.get(s) == i and s not in returned and _count(expr, s) == 1}
@@ -284,6 +306,30 @@ def inplace_body(lines, returns, printer, real_inputs=frozenset()) -> list[str]:
         live |= reads
         kept.append(stmts)
     return [line for stmts in reversed(kept) for line in stmts]
+
+
+def _pure_sums(lines, returned: set, probe: _Writer) -> dict:
+    """Lines that are whole sums ``factor * sum_a coef_a x_a`` over STACK_MIN levels or more,
+    with coefficients read from the kernel's inputs: sym -> (index, coefficients, factor).
+    They are computed together, as one matrix product with _X, when _X is made."""
+    if not probe.rows:
+        return {}
+    defined = {sym for sym, _ in lines}
+    out: dict = {}
+    for sym, expr in lines:
+        if not expr.is_Add or sym in returned or sym in probe.rows or sym in probe.scaled:
+            continue
+        lins = [probe.linear(t) for t in expr.args]
+        if any(lin is None for lin in lins) or len({lin[2] for lin in lins}) != 1:
+            continue
+        coefs: dict[int, sp.Expr] = {}
+        for coef, row, _ in lins:
+            coefs[row] = coefs.get(row, sp.Integer(0)) + coef
+        if len(coefs) < STACK_MIN or any(c.free_symbols & defined for c in coefs.values()):
+            continue
+        out[sym] = (len(out), [coefs.get(k, sp.Integer(0)) for k in range(len(probe.rows))],
+                    lins[0][2])
+    return out
 
 
 def _scaled_rows(lines, rows: dict, tdep: set) -> dict:

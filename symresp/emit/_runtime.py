@@ -272,6 +272,18 @@ def _bexpt_m(T, cs):
     return numpy.exp(X, out=X)
 
 
+# Several such sums at once: one matrix product, a row per sum (or a list of rows when the
+# coefficients vary along the grid).
+def _lincomb_m(X, rows):
+    try:
+        M = numpy.array(rows)
+    except ValueError:          # numbers mixed with arrays
+        M = None
+    if M is not None and M.ndim == 2 and M.dtype.kind in "fic":
+        return (M @ X.reshape(M.shape[1], -1)).reshape((len(rows),) + X.shape[1:])
+    return [_lincomb_a(X, r) for r in rows]
+
+
 # sum_a coefs[a] X[a]: one vector-matrix product when the coefficients are numbers (a fit),
 # row by row when they vary along the grid (parameters given as arrays).
 def _lincomb_a(X, coefs):

@@ -47,8 +47,12 @@ def programs(draw):
         coefs = [draw(st.sampled_from([sp.Integer(1), sp.Integer(3), P_REAL, P_WEIGHT, P_CPLX]))
                  for _ in lines]
         z = sp.Symbol("_Zs")
-        lines.append((z, sp.Add(*[c * x for c, (x, _) in zip(coefs, lines)])))
+        terms = [c * x for c, (x, _) in zip(coefs, lines)]
+        lines.append((z, sp.Add(*terms)))
         values.append(z)
+        if draw(st.booleans()):           # the same sum with a term that is not linear
+            lines.append((sp.Symbol("_Zm"), sp.Add(*terms) + T * lines[0][0] ** 2))
+            values.append(lines[-1][0])
     xs = [s for s, e in lines if isinstance(e, BoltzmannT)]
     if xs and draw(st.booleans()):
         # Scaled factors -beta E'_a x_a (a Jacobian's) and a sum of them.
@@ -143,7 +147,7 @@ def test_stacked_levels_agree_on_every_path():
     a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
     r = sr.Model(J * (a.vec @ b.vec) + h * (a.z + b.z), name="dimer").response(a.z + b.z)
     src = numpy_module_source(r.derivation)
-    assert "_bexpt_m(" in src and "_lincomb_a(_X" in src
+    assert "_bexpt_m(" in src and "_lincomb_m(_X" in src
     mod = compile_module(src)
     T = np.linspace(0.1, 3.0, 12).reshape(3, 4)
     Js, hs = np.linspace(-1, 1, 12).reshape(3, 4), np.linspace(0, 0.5, 12).reshape(3, 4)
