@@ -272,8 +272,9 @@ def _bexpt_m(T, cs):
     return numpy.exp(X, out=X)
 
 
-# Several such sums at once: one matrix product, a row per sum (or a list of rows when the
-# coefficients vary along the grid).
+# Sums sum_a coefs[a] X[a], a row of the result per tuple of coefficients: one matrix product
+# when the coefficients are numbers (a fit), row by row when they vary along the grid
+# (parameters given as arrays).
 def _lincomb_m(X, rows):
     try:
         M = numpy.array(rows)
@@ -281,22 +282,17 @@ def _lincomb_m(X, rows):
         M = None
     if M is not None and M.ndim == 2 and M.dtype.kind in "fic":
         return (M @ X.reshape(M.shape[1], -1)).reshape((len(rows),) + X.shape[1:])
-    return [_lincomb_a(X, r) for r in rows]
-
-
-# sum_a coefs[a] X[a]: one vector-matrix product when the coefficients are numbers (a fit),
-# row by row when they vary along the grid (parameters given as arrays).
-def _lincomb_a(X, coefs):
-    try:
-        v = numpy.array(coefs)
-    except ValueError:          # numbers mixed with arrays
-        v = None
-    if v is not None and v.ndim == 1 and v.dtype.kind in "fic":
-        return (v @ X.reshape(len(v), -1)).reshape(X.shape[1:])
-    out = coefs[0] * X[0]
-    for c, row in zip(coefs[1:], X[1:]):
-        out = out + c * row
+    out = []
+    for coefs in rows:
+        acc = coefs[0] * X[0]
+        for c, row in zip(coefs[1:], X[1:]):
+            acc = acc + c * row
+        out.append(acc)
     return out
+
+
+def _lincomb_a(X, coefs):
+    return _lincomb_m(X, (coefs,))[0]
 
 
 # Thermal pair factor (x_a - x_b)/(beta w) = max(x_a, x_b) phi(beta |w|), w = E_b - E_a.
