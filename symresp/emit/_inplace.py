@@ -20,8 +20,12 @@ Rules, each one needed for correctness:
   together first: they are numbers on the fitting path, so the product costs nothing;
 * with :data:`STACK_MIN` levels or more, the Boltzmann factors are computed as one array
   ``_X`` (a row per level; ``_x{a}`` are views of its rows, never updated in place) and a sum
-  of temperature-free coefficients times Boltzmann factors is one vector-matrix product
-  (``_lincomb_a``): a partition sum over 12 levels is then one BLAS call, not 23 passes.
+  of temperature-free coefficients times Boltzmann factors (or times scaled factors such as a
+  Jacobian's -beta E'_a x_a) is a product with it: a partition sum over 12 levels is one BLAS
+  call, not 23 passes. Lines that are such sums and nothing else are computed together, one
+  matrix product ``_S`` when ``_X`` is made (their coefficients are inputs); each then owns a
+  row of ``_S`` and may update it in place. A sum with other terms takes its linear part as
+  one vector-matrix product (``_lincomb_a``). Rows nobody reads are not written.
 
 The arrays of one kernel call all have the grid's shape or are numbers, so an in-place update
 never needs to grow its target.
