@@ -245,27 +245,31 @@ def _prune(lines: list, outputs: list) -> list:
 def in_temperature(prog: Program) -> Program:
     """``prog`` (a function of ``_beta``) as a function of ``_T``, for the static kernels.
 
-    Boltzmann factors become :class:`BoltzmannT` (e^{-c/T}, one division per level). Where
-    beta is left in one line only (the final ``beta N / Z`` of most susceptibilities) it is
-    written 1/T there, so the grid's reciprocal is never formed; otherwise a first line
-    ``_beta = 1/_T`` keeps the rest as it was. Apply after :func:`differentiate`.
+    Where beta appears, besides the Boltzmann factors, in one line only (the final
+    ``beta N / Z`` of most susceptibilities), the factors become :class:`BoltzmannT`
+    (e^{-c/T}, one division per level, one rounding) and that line is written with 1/T, so the
+    grid's reciprocal is never formed. Otherwise a first line ``_beta = 1/_T`` keeps the rest
+    as it was (a product by beta is cheaper than a division by T once beta exists). Apply
+    after :func:`differentiate`.
     """
     T = TEMPERATURE
-    rows = [(sym, expr.replace(Boltzmann, lambda b, c: BoltzmannT(T, c)) if expr.has(Boltzmann)
-             else expr) for sym, expr in prog.lines]
+    lines = list(prog.lines)
     returns = list(prog.returns)
-    users = [i for i, (_, e) in enumerate(rows) if e.has(BETA)]
+    users = [i for i, (_, e) in enumerate(lines)
+             if e.has(BETA) and not isinstance(e, Boltzmann)]
     in_returns = any(sp.sympify(r).has(BETA) for r in returns)  # safe: sympy objects from symresp, never user text
-    if len(users) + in_returns == 1:
+    if len(users) + in_returns <= 1:
+        lines = [(sym, expr.replace(Boltzmann, lambda b, c: BoltzmannT(T, c))
+                  if expr.has(Boltzmann) else expr) for sym, expr in lines]
         if users:
-            sym, expr = rows[users[0]]
-            rows[users[0]] = (sym, expr.subs(BETA, 1 / T))
+            sym, expr = lines[users[0]]
+            lines[users[0]] = (sym, expr.subs(BETA, 1 / T))
         else:
             returns = [sp.sympify(r).subs(BETA, 1 / T) for r in returns]  # safe: as above
-    elif users or in_returns:
-        rows.insert(0, (BETA, 1 / T))
+    else:
+        lines.insert(0, (BETA, 1 / T))
     args = tuple("_T" if a == "_beta" else a for a in prog.args)
-    return Program(prog.name, args, prog.unpack, tuple(rows), tuple(returns), prog.single)
+    return Program(prog.name, args, prog.unpack, tuple(lines), tuple(returns), prog.single)
 
 
 def static_program(plan: Plan, kind: str, unpack: tuple) -> Program:

@@ -260,15 +260,23 @@ def _bexpt_a(T, c):
     return numpy.exp(x)
 
 
-# All Boltzmann factors at once, a row per level: X[a] = exp(-c_a/T) (c_a >= 0). Rows are
-# contiguous, so the elementwise work on one level's row runs at full speed.
+# All Boltzmann factors at once, a row per level: X[a] = exp(-c_a/T) (c_a >= 0), or
+# exp(-c_a beta) with _bexp_m. Rows are contiguous, so work on one level's row runs at full speed.
 def _bexpt_m(T, cs):
+    return _stacked_exp(cs, T, numpy.divide)
+
+
+def _bexp_m(beta, cs):
+    return _stacked_exp(cs, beta, numpy.multiply)
+
+
+def _stacked_exp(cs, t, op):
     if all(type(c) is float for c in cs):
-        X = numpy.divide.outer(numpy.negative(cs), T)
+        X = op.outer(numpy.negative(cs), t)
     else:
-        X = numpy.array([numpy.broadcast_to(c, T.shape) for c in cs], dtype=float)
+        X = numpy.array([numpy.broadcast_to(c, t.shape) for c in cs], dtype=float)
         numpy.negative(X, out=X)
-        X /= T
+        op(X, t, out=X)
     return numpy.exp(X, out=X)
 
 

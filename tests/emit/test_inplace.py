@@ -18,7 +18,7 @@ from hypothesis import strategies as st
 
 import symresp as sr
 from symresp.emit import compile_module, numpy_module_source
-from symresp.emit._functions import BoltzmannT
+from symresp.emit._functions import Boltzmann, BoltzmannT
 from symresp.emit._inplace import inplace_body
 from symresp.emit._printers import ArrayPrinter
 from symresp.emit._runtime import RUNTIME
@@ -37,27 +37,32 @@ def programs(draw):
     """Lines ``_v{k} = f(earlier values)`` with +, -, *, / (by positive values) and squares."""
     values = list(INPUTS)
     lines = []
-    # Boltzmann factors first, as in a kernel (from STACK_MIN of them on: one array).
+    beta = sp.Symbol("_beta", positive=True)
+    with_beta = draw(st.booleans())
+    if with_beta:                         # a kernel that needs beta besides its factors
+        lines.append((beta, 1 / T))
+    # Boltzmann factors first, as in a kernel (stacked into one array from STACK_MIN of them
+    # on, when the sums over them are long enough).
+    xs = []
     for a in range(draw(st.integers(0, len(OFFSETS)))):
         x = sp.Symbol(f"_x{a}", positive=True)
-        lines.append((x, BoltzmannT(T, OFFSETS[a])))
-        values.append(x)
-    if draw(st.booleans()) and len(lines) >= 2:
-        # A partition-like sum over the factors, with numbers and stage-P coefficients.
+        lines.append((x, Boltzmann(beta, OFFSETS[a]) if with_beta else BoltzmannT(T, OFFSETS[a])))
+        xs.append(x)
+    values += xs
+    for k in range(draw(st.integers(0, 3)) if len(xs) >= 2 else 0):
+        # Partition-like sums over the factors, with numbers and stage-P coefficients.
         coefs = [draw(st.sampled_from([sp.Integer(1), sp.Integer(3), P_REAL, P_WEIGHT, P_CPLX]))
-                 for _ in lines]
-        z = sp.Symbol("_Zs")
-        terms = [c * x for c, (x, _) in zip(coefs, lines)]
-        lines.append((z, sp.Add(*terms)))
-        values.append(z)
+                 for _ in xs]
+        terms = [c * x for c, x in zip(coefs, xs)]
+        lines.append((sp.Symbol(f"_Zs{k}"), sp.Add(*terms)))
+        values.append(lines[-1][0])
         if draw(st.booleans()):           # the same sum with a term that is not linear
-            lines.append((sp.Symbol("_Zm"), sp.Add(*terms) + T * lines[0][0] ** 2))
+            lines.append((sp.Symbol(f"_Zm{k}"), sp.Add(*terms) + T * xs[0] ** 2))
             values.append(lines[-1][0])
-    xs = [s for s, e in lines if isinstance(e, BoltzmannT)]
     if xs and draw(st.booleans()):
         # Scaled factors -beta E'_a x_a (a Jacobian's) and a sum of them.
-        beta = sp.Symbol("_beta", positive=True)
-        lines.insert(0, (beta, 1 / T))
+        if not with_beta:
+            lines.insert(0, (beta, 1 / T))
         ys = []
         for a, x in enumerate(xs):
             y = sp.Symbol(f"_y{a}", real=True)
