@@ -346,8 +346,23 @@ def jacobian_program(plan: Plan, kind: str, P_out: tuple) -> Program:
         dlines, dmap = differentiate(base, seeds, f"d{i}")
         lines += dlines
         results.append(dmap.get(chi, sp.Integer(0)))
-    return in_temperature(Program(f"_jacobian_{kind}", ("_beta", "_P"), P_out, tuple(lines),
-                                  tuple(results)))
+    return in_temperature(Program(f"_jacobian_{kind}", ("_beta", "_P"), P_out,
+                                  tuple(_share_partials(lines, results)), tuple(results)))
+
+
+def _share_partials(lines: list, results: list) -> list:
+    """The lines with the final derivative of each parameter moved to the end and written
+    with common sub-expressions shared: the partials of chi (d chi / d Z, Z^2, ...) do not
+    depend on the parameter, and forward differentiation repeats them in every one."""
+    finals = [r for r in results if isinstance(r, sp.Symbol)]
+    if len(finals) < 2:
+        return lines
+    rest = [(s, e) for s, e in lines if s not in finals]
+    exprs = {s: e for s, e in lines if s in finals}
+    order = [s for s in finals if s in exprs]
+    repl, reduced = sp.cse([exprs[s] for s in order], symbols=sp.numbered_symbols("_k"),
+                           order="canonical")
+    return rest + list(repl) + list(zip(order, reduced))
 
 
 def poles_program(plan: Plan, what: str, unpack: tuple) -> Program:
