@@ -24,8 +24,8 @@ from dataclasses import dataclass
 
 import sympy as sp
 
-from ._functions import (AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal, DegeneracyTol, ExpDiv, Keep,
-                         LevelMin, RootPick)
+from ._functions import (AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal, DegeneracyTol, ExpDiv,
+                         ExpDiv2, Keep, LevelMin, RootPick)
 from ._plan import Plan
 from ._printers import freeze_constants
 
@@ -327,7 +327,7 @@ def jacobian_program(plan: Plan, kind: str, P_out: tuple) -> Program:
     base, chi = _static_lines(plan, kind)
     base = _prune(base, [chi])
     available = {s.name for s in P_out}
-    lines = list(base)
+    lines = []
     results = []
     for i, _ in enumerate(plan.parameters):
         seeds = {}
@@ -346,8 +346,22 @@ def jacobian_program(plan: Plan, kind: str, P_out: tuple) -> Program:
         dlines, dmap = differentiate(base, seeds, f"d{i}")
         lines += dlines
         results.append(dmap.get(chi, sp.Integer(0)))
+    lines = base + _hoist_repeated(lines, ExpDiv2, "_h")
     return in_temperature(Program(f"_jacobian_{kind}", ("_beta", "_P"), P_out,
                                   tuple(_share_partials(lines, results)), tuple(results)))
+
+
+def _hoist_repeated(lines: list, func: type, prefix: str) -> list:
+    """Calls of ``func`` that several lines make (the derivative of a pair factor, the same for
+    every parameter), computed once in lines of their own put first; their arguments are values
+    of the base program."""
+    seen: dict = {}
+    for _, e in lines:
+        for call in e.atoms(func):
+            seen[call] = seen.get(call, 0) + 1
+    repeated = sorted((c for c, n in seen.items() if n > 1), key=sp.default_sort_key)
+    names = {c: sp.Symbol(f"{prefix}{k}", real=True) for k, c in enumerate(repeated)}
+    return [(sym, c) for c, sym in names.items()] + [(s, e.xreplace(names)) for s, e in lines]
 
 
 def _share_partials(lines: list, results: list) -> list:
