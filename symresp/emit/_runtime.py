@@ -100,6 +100,10 @@ _NUDGE = 1e-50
 #: The same for Jacobians: their terms grow like 1/step there and cancel, so a tiny step would
 #: leave rounding noise; 1e-7 leaves about 1e-9 of noise and 1e-7 of truncation.
 _NUDGE_JACOBIAN = 1e-7
+#: Where the singular point is not at zero parameters (e.g. at J1 = -J2), a step of 1e-50 does
+#: not move the floats: there the mean of the values this far (relative) on either side is
+#: taken, the limit to O(1e-10) with rounding noise of about 1e-16 / 1e-5.
+_NUDGE_OFF = 1e-5
 
 
 def _nudge(ps, size):
@@ -118,21 +122,33 @@ def _stage_p_s(par, ps, size=_NUDGE):
 
     Weights of a symbolic block can hold removable singularities where its eigenvectors are
     not defined, e.g. h / sqrt(E^2 + h^2) at E = h = 0. The response itself is analytic in
-    the parameters (T > 0), so its value there is the limit: evaluate 1e-50 away instead.
+    the parameters (T > 0), so its value there is the limit: evaluate 1e-50 away instead, or,
+    where that does not move the floats, take the mean 1e-5 away on either side.
     Zeros are never looked up (0.0 == -0.0, but a kernel may tell them apart).
     """
     last = _LAST_P.get(par)
     if last is not None and last[0] == ps and 0.0 not in ps and last[1] == size:
         return last[2]          # the key is a tuple, so a list never matches
-    try:
-        P = par(*ps)
-        finite = cmath.isfinite(sum(P))
-    except (ZeroDivisionError, ValueError, OverflowError):
-        finite = False
-    if not finite:
-        P = par(*_nudge(ps, size))
+    P = _finite_p(par, ps)
+    if P is None:
+        P = _finite_p(par, _nudge(ps, size))
+    if P is None:
+        up = _finite_p(par, _nudge(ps, _NUDGE_OFF))
+        dn = _finite_p(par, _nudge(ps, -_NUDGE_OFF))
+        if up is None or dn is None:
+            raise ValueError(f"the formulas are singular at and around the parameters "
+                             f"{dict(zip(PARAMETERS, ps))}; evaluate at a point nearby")
+        P = tuple((a + b) / 2 for a, b in zip(up, dn))
     _LAST_P[par] = (tuple(ps), size, P)
     return P
+
+
+def _finite_p(par, ps):
+    try:
+        P = par(*ps)
+    except (ZeroDivisionError, ValueError, OverflowError):
+        return None
+    return P if cmath.isfinite(sum(P)) else None
 
 
 def _stage_p_a(par, ps, size=_NUDGE):
@@ -141,7 +157,12 @@ def _stage_p_a(par, ps, size=_NUDGE):
         P = par(*ps)
         if numpy.isfinite(sum(P)).all():
             return P
-    return par(*_nudge(ps, size))
+        P = par(*_nudge(ps, size))
+        bad = ~numpy.isfinite(sum(P))
+        if not bad.any():
+            return P
+        up, dn = par(*_nudge(ps, _NUDGE_OFF)), par(*_nudge(ps, -_NUDGE_OFF))
+        return tuple(numpy.where(bad, (a + b) / 2, p) for p, a, b in zip(P, up, dn))
 
 
 def _store(out, s, value, width):

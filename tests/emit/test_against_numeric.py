@@ -60,3 +60,9 @@ def test_emitted_evaluator_equals_exact_diagonalisation(model, data):
     expected = [numeric.static_isothermal(model.H_num(values), model.A_mat, model.B_mat, 1 / x)
                 for x in Ts]
     _close(mod.chi_isothermal(Ts, *args), expected, "isothermal over T")
+    # The array kernels (in-place, stacked levels) against the scalar ones (math, plain).
+    _close(mod.chi_isolated(Ts, *args), [mod.chi_isolated(float(x), *args) for x in Ts],
+           "isolated over T")
+    for kind in ("isothermal", "isolated") if args else ():
+        _close(mod.jacobian_static(Ts, *args, kind=kind),
+               [mod.jacobian_static(float(x), *args, kind=kind) for x in Ts], f"Jacobian {kind}")

@@ -338,6 +338,27 @@ def test_removable_singularity_of_the_weights_gives_the_limit():
         assert abs(jac[i] - fd) <= RTOL_SINGULAR_JACOBIAN, (i, jac[i], fd)
 
 
+def test_removable_singularity_away_from_zero_parameters_gives_the_limit():
+    # H = -(J1 + J2)(a + a^+) for a boson with cutoff 2: the stage-P weights divide by J1 + J2,
+    # singular at J1 = -J2 = -0.2, where a step of 1e-50 does not move the floats. Found by the
+    # random-model property test (it raised ZeroDivisionError, and gave NaN on arrays).
+    J1, J2 = sp.symbols("J1 J2", real=True)
+    a = sr.boson("a", 2)
+    H = -(J1 + J2) * (a + sr.dagger(a))
+    mod = compile_module(numpy_module_source(sr.Model(H).response(a, sr.dagger(a) * a).derivation))
+    model = sr.Model(H)
+    T = 0.6
+    with np.errstate(divide="raise", invalid="raise", over="raise", under="ignore"):
+        for j2 in (0.2, 0.2 + 1e-7):
+            Hn = model.array(H, params={"J1": -0.2, "J2": j2})
+            ref = numeric.solve(Hn, model.array(a), model.array(sr.dagger(a) * a), 1 / T)
+            _assert_close(mod.chi_isothermal(T, -0.2, j2), ref.isothermal.real, "scalar")
+            grid = mod.chi_isothermal(np.array([T, T]), np.array([-0.2, 0.3]), np.array([j2, 0.2]))
+            _assert_close(grid[0], ref.isothermal.real, "array")
+            _assert_close(mod.chi_omega(OMEGA, T, -0.2, j2, eta=ETA), ref.frequency(OMEGA, ETA),
+                          "omega")
+
+
 def test_extreme_temperatures_and_parameters_stay_finite_without_warnings():
     mod = module("ring4_s0z")
     T = np.array([1e-6, 1e-3, 1.0, 1e3, 1e8])
