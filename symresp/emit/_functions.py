@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import sympy as sp
 
-__all__ = ["Boltzmann", "BoltzmannT", "ExpDiv", "ExpDiv2", "Keep", "LevelMin", "AtMin", "DegeneracyTol",
+__all__ = ["Boltzmann", "BoltzmannT", "AsComplex", "ExpDiv", "ExpDiv2", "Keep", "LevelMin", "AtMin", "DegeneracyTol",
            "Causal", "BlockEigen", "RootPick", "CACHE_ONLY"]
 
 
@@ -47,6 +47,13 @@ class BoltzmannT(sp.Function):
     """
 
     nargs = 2
+
+
+class AsComplex(sp.Function):
+    """``AsComplex(x)``: x as a complex array. Starts a pole sum that is accumulated in place
+    when its first term may be real at run time but a later one complex."""
+
+    nargs = 1
 
 
 #: Argument positions (1-based) of :class:`ExpDiv` that only carry cached values: the function

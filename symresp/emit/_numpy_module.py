@@ -463,9 +463,9 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
                      not wave_complex) + ["", ""]
     src += ["# " + "-" * 90, "# Stage W: the frequency or time grid.", "# " + "-" * 90, "", ""]
     src += _array_only(omega_program(plan)) + ["", ""]
-    src += _array_only(spectral_program(plan, "lorentzian")) + ["", ""]
-    src += _array_only(spectral_program(plan, "gaussian")) + ["", ""]
-    src += _array_only(time_program(plan)) + ["", ""]
+    src += _array_only(spectral_program(plan, "lorentzian", wave_complex)) + ["", ""]
+    src += _array_only(spectral_program(plan, "gaussian", wave_complex)) + ["", ""]
+    src += _array_only(time_program(plan, wave_complex)) + ["", ""]
     src += ["# " + "-" * 90, "# Public functions.", "# " + "-" * 90, "", ""]
     src += _glue(plan, has_time)
     while src and src[-1] == "":

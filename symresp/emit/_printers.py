@@ -22,7 +22,7 @@ import sympy as sp
 from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.pycode import PythonCodePrinter
 
-from ._functions import (AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal, DegeneracyTol, ExpDiv,
+from ._functions import (AsComplex, AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal, DegeneracyTol, ExpDiv,
                          ExpDiv2, Keep, LevelMin, RootPick)
 
 __all__ = ["ArrayPrinter", "ScalarPrinter", "freeze_constants", "DIGITS"]
@@ -74,6 +74,9 @@ class _ProgramPrinting:
 
     def _print_Boltzmann(self, expr: Boltzmann) -> str:
         return self._helper("bexp", *expr.args)
+
+    def _print_AsComplex(self, expr: AsComplex) -> str:
+        return self._helper("cplx", *expr.args)
 
     def _print_BoltzmannT(self, expr: BoltzmannT) -> str:
         return self._helper("bexpt", *expr.args)

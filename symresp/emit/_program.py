@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import sympy as sp
 
-from ._functions import (AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal, DegeneracyTol, ExpDiv,
+from ._functions import (AsComplex, AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal, DegeneracyTol, ExpDiv,
                          ExpDiv2, Keep, LevelMin, RootPick)
 from ._plan import Plan
 from ._printers import freeze_constants
@@ -432,19 +432,22 @@ def omega_program(plan: Plan) -> Program:
     return _accumulate("_omega_w", ("_x", "_eta", "_P"), coeff, lines, terms, plan.sign, acc)
 
 
-def _accumulate(name, args, coeff, lines, terms, factor, acc) -> Program:
+def _accumulate(name, args, coeff, lines, terms, factor, acc, complex_sum=False) -> Program:
+    """The pole sum accumulated in place in ``acc``; ``complex_sum`` (a complex response)
+    starts it complex, since its first term may be real at run time and a later one not."""
     body = list(lines)
     terms = [t for t in terms if t != 0]
     if not terms:
         return Program(name, args, tuple(s for c in coeff for s in c), tuple(body),
                        (sp.Integer(0) * _X,), single=True)
     for i, term in enumerate(terms):
-        body.append((acc, term if i == 0 else acc + term))
+        first = AsComplex(term) if complex_sum else term
+        body.append((acc, first if i == 0 else acc + term))
     return Program(name, args, tuple(s for c in coeff for s in c), tuple(body),
                    (factor * acc if factor != 1 else acc,), single=True)
 
 
-def spectral_program(plan: Plan, shape: str) -> Program:
+def spectral_program(plan: Plan, shape: str, complex_sum: bool) -> Program:
     r""":math:`\chi''(\omega) = s\sigma\sum_g [u_g\,L(\sigma\omega - r_g) + v_g\,L(\sigma\omega + r_g)]`,
     L a Lorentzian of half width :math:`\eta` (area :math:`\pi`) or a Gaussian of the same
     half width at half maximum and area."""
@@ -471,10 +474,10 @@ def spectral_program(plan: Plan, shape: str) -> Program:
         terms.append(u * line(om - r) + v * line(om + r))
     acc = sp.Symbol("_acc", real=True)
     return _accumulate(f"_spectral_{shape}_w", ("_x", "_eta", "_P"), coeff, lines, terms,
-                       plan.sign * plan.frequency_sign, acc)
+                       plan.sign * plan.frequency_sign, acc, complex_sum)
 
 
-def time_program(plan: Plan) -> Program:
+def time_program(plan: Plan, complex_sum: bool) -> Program:
     r""":math:`\chi(t) = s\,\theta(t)\sum_g [u_g \sin(r_g t) + i v_g \cos(r_g t)]` (retarded)."""
     coeff = _coefficients(plan)
     terms = []
@@ -482,6 +485,7 @@ def time_program(plan: Plan) -> Program:
         has_d = any(plan.pairs[k].D != 0 for k, _ in grp.members)
         terms.append(u * sp.sin(r * _X) + (sp.I * v * sp.cos(r * _X) if has_d else 0))
     acc = sp.Symbol("_acc")
-    prog = _accumulate("_time_w", ("_x", "_eta", "_P"), coeff, [], terms, plan.sign, acc)
+    prog = _accumulate("_time_w", ("_x", "_eta", "_P"), coeff, [], terms, plan.sign, acc,
+                       complex_sum)
     value = prog.returns[0]
     return Program(prog.name, prog.args, prog.unpack, prog.lines, (Causal(_X, value),), single=True)

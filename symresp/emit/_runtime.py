@@ -324,6 +324,10 @@ def _lincomb_a(X, coefs):
     return _lincomb_m(X, (coefs,))[0]
 
 
+def _cplx_a(x):
+    return numpy.asarray(x, dtype=complex)
+
+
 # Thermal pair factor (x_a - x_b)/(beta w) = max(x_a, x_b) phi(beta |w|), w = E_b - E_a.
 def _expdiv_s(xa, xb, beta, w):
     y = beta * abs(w)

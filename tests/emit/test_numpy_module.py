@@ -359,6 +359,26 @@ def test_removable_singularity_away_from_zero_parameters_gives_the_limit():
                           "omega")
 
 
+def test_complex_pole_sums_whose_first_term_is_real():
+    # A three-level site and a fermion, A = n, B = |0><2| (not Hermitian): the first pole of
+    # chi(t) has a real coefficient and later ones complex, so a sum accumulated in place must
+    # start complex. Found by the random-model search (numpy refused the complex += at run time).
+    s0, s1 = sr.nlevel("s0", 3), sr.fermion("s1")
+    H = (s0.op(0, 2) * sr.dagger(s1) + s0.op(1, 2) + s0.op(2, 0) * s1 + s0.op(2, 1)
+         - sr.Rational(1, 2) * (s1 + sr.dagger(s1)))
+    A, B = sr.dagger(s1) * s1, s0.op(0, 2)
+    model = sr.Model(H)
+    mod = compile_module(numpy_module_source(model.response(A, B).derivation))
+    T = 0.6
+    ref = numeric.solve(model.array(H), model.array(A), model.array(B), 1 / T)
+    times = np.array([0.0, 0.4, 3.3])
+    _assert_close(mod.chi_time(times, T), ref.time(times), "chi(t)")
+    _assert_close(mod.chi_omega(OMEGA, T, eta=ETA), ref.frequency(OMEGA, ETA), "omega")
+    _assert_close(mod.chi_spectral(OMEGA, T, eta=ETA), ref.spectral(OMEGA, ETA), "spectral")
+    _assert_close(mod.chi_spectral(OMEGA, T, eta=ETA, shape="gaussian"),
+                  _gaussian_lines(ref, OMEGA, ETA), "gaussian")
+
+
 def test_extreme_temperatures_and_parameters_stay_finite_without_warnings():
     mod = module("ring4_s0z")
     T = np.array([1e-6, 1e-3, 1.0, 1e3, 1e8])
