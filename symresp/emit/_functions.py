@@ -17,8 +17,8 @@ from __future__ import annotations
 
 import sympy as sp
 
-__all__ = ["Boltzmann", "BoltzmannT", "AsComplex", "ExpDiv", "ExpDiv2", "Keep", "LevelMin", "AtMin", "DegeneracyTol",
-           "Causal", "BlockEigen", "RootPick", "CACHE_ONLY"]
+__all__ = ["Boltzmann", "BoltzmannT", "AsComplex", "ExpDiv", "ExpDiv2", "Keep", "LevelMin",
+           "AtMin", "DegeneracyTol", "Causal", "BlockEigen", "RootPick", "CACHE_ONLY"]
 
 
 class Boltzmann(sp.Function):

@@ -53,13 +53,15 @@ def _print_function(prog: Program, printer, name: str, inplace: bool = False,
         names = ", ".join(s.name for s in prog.unpack)
         out.append(f"    ({names},) = _P")
     if inplace:
-        out += inplace_body(prog.lines, prog.returns, printer, _real_inputs(prog, real))
-    for sym, expr in () if inplace else prog.lines:
-        if isinstance(expr, sp.Add) and sym in expr.args and sym.name == "_acc":
-            # Accumulate a pole sum in place: one fresh array per call, not one per pole.
-            out.append(f"    {sym.name} += {printer.doprint(expr - sym)}")
-        else:
-            out.append(f"    {sym.name} = {printer.doprint(expr)}")
+        real_inputs = {s.name for s in prog.unpack} if real else set()
+        out += inplace_body(prog.lines, prog.returns, printer, real_inputs)
+    else:
+        for sym, expr in prog.lines:
+            if isinstance(expr, sp.Add) and sym in expr.args and sym.name == "_acc":
+                # Accumulate a pole sum in place: one fresh array per call, not one per pole.
+                out.append(f"    {sym.name} += {printer.doprint(expr - sym)}")
+            else:
+                out.append(f"    {sym.name} = {printer.doprint(expr)}")
     if prog.single:
         out.append(f"    return {printer.doprint(prog.returns[0])}")
     elif prog.returns:
@@ -67,14 +69,6 @@ def _print_function(prog: Program, printer, name: str, inplace: bool = False,
     else:
         out.append("    return ()")
     return out
-
-
-def _real_inputs(prog: Program, real: bool) -> set[str]:
-    """Unpacked stage-P values known real: all of them when the plan shows the values of the
-    program real, else the energy derivatives (levels of a Hermitian H are real)."""
-    if real:
-        return {s.name for s in prog.unpack}
-    return {s.name for s in prog.unpack if s.name.startswith("_E") and "_d" in s.name}
 
 
 def _both(prog: Program, inplace: bool = False, real: bool = False) -> list[str]:

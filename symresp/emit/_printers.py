@@ -22,8 +22,8 @@ import sympy as sp
 from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.pycode import PythonCodePrinter
 
-from ._functions import (AsComplex, AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal, DegeneracyTol, ExpDiv,
-                         ExpDiv2, Keep, LevelMin, RootPick)
+from ._functions import (AsComplex, AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal,
+                         DegeneracyTol, ExpDiv, ExpDiv2, Keep, LevelMin, RootPick)
 
 __all__ = ["ArrayPrinter", "ScalarPrinter", "freeze_constants", "DIGITS"]
 

@@ -72,8 +72,8 @@ def _da(a): return _s(f"_da{a}", real=False)     # alpha_a minus alpha of the lo
 def _db(a): return _s(f"_db{a}", real=False)
 def _x(a): return sp.Symbol(f"_x{a}", positive=True)
 def _g(k): return sp.Symbol(f"_g{k}", nonnegative=True)
-def _dv(q: sp.Symbol, i: int) -> sp.Symbol:      # d q / d theta_i, stage P
-    return _s(f"{q.name}_d{i}", real=False)
+def _dv(q: sp.Symbol, i: int) -> sp.Symbol:      # d q / d theta_i, stage P (real if q is)
+    return _s(f"{q.name}_d{i}", real=bool(q.is_real))
 
 
 _TOL = _s("_tol")
@@ -334,7 +334,7 @@ def jacobian_program(plan: Plan, kind: str, P_out: tuple) -> Program:
         for a in range(len(plan.energies)):
             name = f"_E{a}_d{i}"
             if name in available:
-                seeds[_c(a)] = _s(name, real=False)
+                seeds[_c(a)] = _s(name)        # levels of a Hermitian H: real
         for q in [_S(k) for k in range(len(plan.pairs))] + [_C(a) for a in range(len(plan.energies))]:
             if f"{q.name}_d{i}" in available:
                 seeds[q] = _s(f"{q.name}_d{i}", real=False)

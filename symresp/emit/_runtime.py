@@ -372,7 +372,7 @@ def _psi_grid(y):
         small = y < _SERIES
         ys = numpy.where(small, 1.0, y)
         return numpy.where(small, _psi_series(y), (-numpy.expm1(-ys) - ys) / (ys * ys))
-    out = numpy.negative(y)
+    out = numpy.negative(y, out=numpy.empty_like(y))
     numpy.expm1(out, out=out)
     numpy.negative(out, out=out)
     out -= y
@@ -387,7 +387,7 @@ def _psiphi_grid(y):
         ys = numpy.where(small, 1.0, y)
         return numpy.where(small, _psiphi_series(y),
                            (-numpy.expm1(-ys) - ys * numpy.exp(-ys)) / (ys * ys))
-    e = numpy.negative(y)
+    e = numpy.negative(y, out=numpy.empty_like(y))
     out = numpy.expm1(e)
     numpy.exp(e, out=e)
     e *= y
@@ -425,12 +425,7 @@ def _expdiv2_a(xa, xb, beta, w):
         out *= xb
         return out
     y = numpy.asarray(beta * numpy.abs(w), dtype=float)
-    small = y < _SERIES
-    ys = numpy.where(small, 1.0, y)
-    em1 = -numpy.expm1(-ys)
-    psi = numpy.where(small, _psi_series(y), (em1 - ys) / (ys * ys))
-    psiphi = numpy.where(small, _psiphi_series(y), (em1 - ys * numpy.exp(-ys)) / (ys * ys))
-    return numpy.where(numpy.asarray(w) >= 0, -xa * psi, xb * psiphi)
+    return numpy.where(numpy.asarray(w) >= 0, -xa * _psi_grid(y.copy()), xb * _psiphi_grid(y))
 
 
 # Isolated susceptibility: pairs closer than the grouping tolerance count as one level.

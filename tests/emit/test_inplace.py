@@ -180,3 +180,9 @@ def test_grid_jacobian_equals_the_scalar_path_across_the_series_threshold():
             grid = mod.jacobian_static(T, *params, kind=kind)
             pointwise = np.array([mod.jacobian_static(float(t), *params, kind=kind) for t in T])
             np.testing.assert_allclose(grid, pointwise, rtol=1e-12, atol=1e-14 * np.abs(pointwise).max())
+        # Parameters along the grid too: spacings are arrays there (the general helper path).
+        Js, hs = np.linspace(-1.0, 1.0, T.size), np.linspace(-0.5, 0.7, T.size)
+        grid = mod.jacobian_static(T, Js, hs, kind=kind)
+        pointwise = np.array([mod.jacobian_static(float(t), float(j), float(f), kind=kind)
+                              for t, j, f in zip(T, Js, hs)])
+        np.testing.assert_allclose(grid, pointwise, rtol=1e-12, atol=1e-14 * np.abs(pointwise).max())
