@@ -380,7 +380,7 @@ def boson(name: str, cutoff: int) -> Operator:
 
 def describe(op: Operator) -> str:
     """Readable form of an operator: a combination of ``s.x``, ``s.y``, ``s.z``, ``n(c)``, ``c``,
-    ``dag(c)``, boson ``a``, ``dag(a)`` and ``n(a)`` when it is one, else the canonical form.
+    ``adj(c)``, boson ``a``, ``adj(a)`` and ``n(a)`` when it is one, else the canonical form.
 
     Examples
     --------
@@ -399,7 +399,7 @@ def describe(op: Operator) -> str:
         elif site.kind in ("fermion", "boson"):
             c = Operator.local(site, ("u", 0, 1) if site.kind == "fermion" else ("b", 0, 1))
             cd = from_dagger(c)
-            names += [(site.name, c), (f"dag({site.name})", cd), (f"n({site.name})", cd * c)]
+            names += [(site.name, c), (f"adj({site.name})", cd), (f"n({site.name})", cd * c)]
     if not names:
         return repr(op)
     coeffs = sp.symbols(f"k0:{len(names)}")

@@ -401,7 +401,7 @@ class _Reader:
                                   extra_sites=all_sites, name=name.strip())
         except NotHermitianError as err:
             raise self.fail("[model] hamiltonian", f"{err} In a case file, add the conjugate "
-                                                   f"terms with dag(...).",
+                                                   f"terms with adj(...).",
                             self.place(("model",), "hamiltonian"), NotHermitianError) from None
         except NotConservedError as err:
             raise self.fail("[sector]", str(err), self.place(("sector",)), NotConservedError) from None

@@ -18,7 +18,7 @@ Vocabulary
     :math:`|i\rangle\langle i|`;
   - fermion or boson mode ``c``: the annihilator itself;
 
-* ``dag(X)`` adjoint, ``n(c)`` = ``dag(c)*c``, ``dot(a, b)`` = ``a.x*b.x + a.y*b.y + a.z*b.z``,
+* ``adj(X)`` adjoint, ``n(c)`` = ``adj(c)*c``, ``dot(a, b)`` = ``a.x*b.x + a.y*b.y + a.z*b.z``,
   ``[X, Y]`` = ``X*Y - Y*X``.
 
 Guards: at most ``MAX_LENGTH`` characters and ``MAX_DEPTH`` levels of nesting; exact numbers
@@ -54,7 +54,9 @@ SCALAR_FUNCTIONS: Mapping[str, Callable[[sp.Expr], sp.Expr]] = {
     "csch": sp.csch, "abs": sp.Abs,
 }
 #: Functions that build operators.
-OPERATOR_FUNCTIONS = ("dag", "n", "dot")
+OPERATOR_FUNCTIONS = ("adj", "n", "dot")
+# Spellings that are not part of the language, with the one to use instead.
+_RENAMED_FUNCTIONS: Mapping[str, str] = {"dag": "adj(X)", "dagger": "adj(X)"}
 #: Named constants.
 CONSTANTS: Mapping[str, sp.Expr] = {"pi": sp.pi, "I": sp.I}
 #: Names a scope may not define (they belong to the language).
@@ -170,7 +172,7 @@ def parse_operator(text: str, scope: Mapping[str, object], *, source: str = "<fo
     >>> H == J * (a.vec @ b.vec)
     True
     >>> c = sr.fermion("c")
-    >>> parse_operator("[c, dag(c)] + 2*n(c)", {"c": c}) == 1    # c c^+ - c^+ c = 1 - 2 n
+    >>> parse_operator("[c, adj(c)] + 2*n(c)", {"c": c}) == 1    # c c^+ - c^+ c = 1 - 2 n
     True
 
     See Also
@@ -509,6 +511,9 @@ class _Evaluator:
         if name in CONSTANTS:
             raise self.error(node.offset, f"'{name}' is a constant, not a function: write "
                                           f"'{name}*(...)' for a product")
+        if name in _RENAMED_FUNCTIONS:
+            raise self.error(func.offset, f"{name}() is not a function of the formula language: "
+                                          f"the adjoint is written {_RENAMED_FUNCTIONS[name]}")
         raise self.error(func.offset, self.unknown(name, what="function"))
 
     def arity(self, node: Call, n: int, usage: str) -> None:
@@ -524,9 +529,9 @@ class _Evaluator:
                                             f"to {site.n - 1}, got {_short(v)}")
         return int(v)
 
-    def op_dag(self, node: Call) -> Value:
-        self.arity(node, 1, "dag(X)")
-        v = self.operand(node.args[0], "dag()")
+    def op_adj(self, node: Call) -> Value:
+        self.arity(node, 1, "adj(X)")
+        v = self.operand(node.args[0], "adj()")
         if isinstance(v, Operator):
             self.spend(4 * len(v.terms), node.offset)
             return dagger(v)

@@ -32,7 +32,7 @@ FULL = case_text('''
     energy_unit = "K"
     hamiltonian = """
     J*dot(a, b) + Delta*q.proj(1) + eps*(n(d_up) + n(d_dn)) + w*n(x) + U*n(d_up)*n(d_dn)
-      + g*(q(0, 1) + q(1, 0))*(x + dag(x)) + mu*n(c)
+      + g*(q(0, 1) + q(1, 0))*(x + adj(x)) + mu*n(c)
     """
 
     [parameters]
@@ -169,7 +169,7 @@ def test_non_hermitian_hamiltonian_names_the_file_and_key():
         [sites]
         a = "spin 1/2"
     ''')
-    with pytest.raises(NotHermitianError, match=r"x\.toml:2: \[model\] hamiltonian: .*dag"):
+    with pytest.raises(NotHermitianError, match=r"x\.toml:2: \[model\] hamiltonian: .*adj\(\.\.\.\)"):
         parse_case(text, source="x.toml")
 
 

@@ -111,7 +111,7 @@ A = "M"
 '''
 
 FERMIONS = '''[model]
-hamiltonian = "-t1*(dag(c1)*c2 + dag(c2)*c1)"
+hamiltonian = "-t1*(adj(c1)*c2 + adj(c2)*c1)"
 [parameters]
 t1 = 1
 [sites]

@@ -109,7 +109,7 @@ def test_zeeman_degenerate_limit_is_the_curie_value():
 
 
 def test_harmonic_oscillator_position_response():
-    # Source: common practice. H = w0 a^dag a, x = (a + a^dag)/sqrt(2): chi(omega) = w0/(w0^2 - omega^2)
+    # Source: common practice. H = w0 a^+ a, x = (a + a^+)/sqrt(2): chi(omega) = w0/(w0^2 - omega^2)
     # independent of temperature; exact for any cutoff only if the thermal weight of the top state
     # is neglected, so compare the T -> 0 (ground-state) pole table.
     w0 = sp.Symbol("w0", positive=True)

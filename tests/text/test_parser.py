@@ -103,12 +103,12 @@ def test_level_site_transitions_and_projectors():
     assert parse_operator("q(0,1)*q(1,2)", SCOPE) == q.op(0, 2)
 
 
-def test_fermions_bosons_dag_and_n():
+def test_fermions_bosons_adj_and_n():
     c_up = SCOPE["c_up"]
     assert parse_operator("n(c_up)", SCOPE) == sr.dagger(c_up) * c_up
-    assert parse_operator("c_up*dag(c_dn) + dag(c_dn)*c_up", SCOPE).is_zero
-    assert parse_operator("[x, dag(x)]", SCOPE) == 1
-    assert parse_operator("dag(I*J)*a.z", SCOPE) == -sr.I * J * SCOPE["a"].z
+    assert parse_operator("c_up*adj(c_dn) + adj(c_dn)*c_up", SCOPE).is_zero
+    assert parse_operator("[x, adj(x)]", SCOPE) == 1
+    assert parse_operator("adj(I*J)*a.z", SCOPE) == -sr.I * J * SCOPE["a"].z
 
 
 def test_scalar_text_gives_identity_operator():
@@ -152,6 +152,8 @@ def test_operator_arithmetic_forms():
     ("J\t+ ∂", 1, 5, "unexpected character"),
     ("c_up.x", 1, 6, "spin sites"),
     ("pi(2)", 1, 3, "constant"),
+    ("J*dag(x)", 1, 3, "the adjoint is written adj(X)"),
+    ("dagger(c_up)", 1, 1, "the adjoint is written adj(X)"),
 ])
 def test_errors_point_at_the_fault(text, line, column, words):
     with pytest.raises(ParseError) as info:
@@ -178,7 +180,7 @@ def test_empty_formula_is_an_error():
 
 def test_operator_functions_are_refused_in_scalar_formulas():
     with pytest.raises(ParseError, match="scalar formula"):
-        parse_scalar("dag(J)", SYMBOLS)
+        parse_scalar("adj(J)", SYMBOLS)
 
 
 def test_scope_may_not_redefine_language_words():
@@ -222,8 +224,8 @@ HOSTILE = [
     "(J+h)^33",
     "10^999*10^999",
     "exp(" * 150 + "J" + ")" * 150,
-    "(a.x + b.x + q(0,1) + x + dag(x))^12",
-    "((x + dag(x))^12)^12",
+    "(a.x + b.x + q(0,1) + x + adj(x))^12",
+    "((x + adj(x))^12)^12",
     "1e99999",
     "sqrt(" + "7" * 400 + ")",
 ]
@@ -258,7 +260,7 @@ def test_nothing_is_executed(tmp_path):
 # ---------------------------------------------------------------- fuzzing
 
 _NAMES = ["J", "h", "a", "b", "q", "c_up", "c_dn", "x", "pi", "I", "beta", "zz", "__class__"]
-_FUNCS = ["exp", "log", "sqrt", "sin", "tanh", "coth", "abs", "dag", "n", "dot", "q", "foo"]
+_FUNCS = ["exp", "log", "sqrt", "sin", "tanh", "coth", "abs", "adj", "dag", "n", "dot", "q", "foo"]
 _ATOMS = st.one_of(
     st.sampled_from(_NAMES),
     st.sampled_from(["a.x", "a.y", "a.z", "a.plus", "b.minus", "q.proj(1)", "q(0,2)", "a.q"]),
