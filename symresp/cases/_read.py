@@ -9,7 +9,7 @@ The format is described completely in ``docs/case-files.md``. In short::
 
     [model]
     name = "dimer"
-    description = "Spin-1/2 dimer compound QX-17 in a field along z"
+    description = "Spin-1/2 dimer compound Tandrel salt in a field along z"
     hamiltonian = "J*dot(a, b) - h*(a.z + b.z)"
 
     [parameters]

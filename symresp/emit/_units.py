@@ -32,7 +32,8 @@ from ..errors import InputError
 __all__ = [
     "PLANCK", "BOLTZMANN", "ELEMENTARY_CHARGE", "SPEED_OF_LIGHT", "AVOGADRO", "BOHR_MAGNETON",
     "VACUUM_PERMEABILITY", "ENERGY_UNITS", "energy_in_joule", "energy_factor",
-    "convert_energy", "molar_susceptibility", "molar_chi_T", "curie_constant",
+    "convert_energy", "molar_susceptibility", "molar_susceptibility_times_temperature",
+    "curie_constant",
 ]
 
 #: Planck constant h in J s. Source: CODATA 2018 (exact).
@@ -215,7 +216,7 @@ def molar_susceptibility(chi, *, g: float, energy_unit: str = "K", system: str =
 
     See Also
     --------
-    molar_chi_T, curie_constant
+    molar_susceptibility_times_temperature, curie_constant
     """
     g = _positive("g", g)
     e_unit = energy_in_joule(energy_unit)
@@ -224,7 +225,8 @@ def molar_susceptibility(chi, *, g: float, energy_unit: str = "K", system: str =
     return chi * factor
 
 
-def molar_chi_T(chi, T, *, g: float, energy_unit: str = "K", system: str = "cgs"):
+def molar_susceptibility_times_temperature(chi, T, *, g: float, energy_unit: str = "K",
+                                           system: str = "cgs"):
     r""":math:`\chi_{\rm mol} T` with T in kelvin (cm^3 K mol^-1 or m^3 K mol^-1).
 
     Parameters
@@ -248,8 +250,8 @@ def molar_chi_T(chi, T, *, g: float, energy_unit: str = "K", system: str = "cgs"
 
     Examples
     --------
-    >>> from symresp.emit import molar_chi_T
-    >>> round(molar_chi_T(1 / (4 * 2.0), 2.0, g=2.0), 4)
+    >>> from symresp.emit import molar_susceptibility_times_temperature
+    >>> round(molar_susceptibility_times_temperature(1 / (4 * 2.0), 2.0, g=2.0), 4)
     0.3751
 
     See Also

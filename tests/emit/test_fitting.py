@@ -1,6 +1,6 @@
 """Fitting invented magnetometry data with an emitted evaluator and its analytic Jacobian.
 
-Demo scenario (invented): the "dimer salt QX-17", a made-up compound of antiferromagnetically
+Demo scenario (invented): the "Tandrel salt", a made-up compound of antiferromagnetically
 coupled spin-1/2 pairs, H = J S_1.S_2 with J = 14.2 K and g = 2.11. Its molar susceptibility is
 simulated on 2-300 K with 1 % Gaussian noise from a seeded generator and fitted with
 scipy.optimize.curve_fit; J and g must come back within their error bars.
@@ -35,7 +35,7 @@ RTOL_JAC_VS_NUMERIC = 1e-6
 def qx17():
     J = sp.Symbol("J", real=True)
     a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
-    r = sr.Model(J * (a.vec @ b.vec), name="dimer salt QX-17").response(a.z + b.z)
+    r = sr.Model(J * (a.vec @ b.vec), name="Tandrel salt").response(a.z + b.z)
     f = numpy_functions(r.derivation)
     # chi_mol = K g^2 chi(T, J), chi per molecule in 1/K (A = B = total S^z).
     K = molar_susceptibility(1.0, g=1.0, energy_unit="K", system="cgs")

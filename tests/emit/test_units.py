@@ -17,8 +17,8 @@ import sympy as sp
 import symresp as sr
 from symresp.emit import (AVOGADRO, BOHR_MAGNETON, BOLTZMANN, ELEMENTARY_CHARGE, PLANCK,
                           SPEED_OF_LIGHT, VACUUM_PERMEABILITY, convert_energy, curie_constant,
-                          energy_factor, energy_in_joule, molar_chi_T, molar_susceptibility,
-                          numpy_functions)
+                          energy_factor, energy_in_joule, molar_susceptibility,
+                          molar_susceptibility_times_temperature, numpy_functions)
 from symresp.errors import InputError
 
 #: Exact SI constants (2019 SI) agree to rounding.
@@ -103,11 +103,11 @@ def test_free_spin_evaluator_gives_the_curie_law_in_molar_units():
     s = sr.spin("s", sr.Rational(1, 2))
     f = numpy_functions(sr.Model(0 * s.z).response(s.z).derivation)
     T = np.array([2.0, 10.0, 300.0])                       # kelvin
-    chiT = molar_chi_T(f.chi_isothermal(T), T, g=2.0)
+    chiT = molar_susceptibility_times_temperature(f.chi_isothermal(T), T, g=2.0)
     np.testing.assert_allclose(chiT, curie_constant(0.5, g=2.0), rtol=RTOL_ROUNDING)
     # Same physics with energies in meV: chi is per meV, T given in meV.
     T_meV = convert_energy(T, "K", "meV")
-    chiT_meV = molar_chi_T(f.chi_isothermal(T_meV), T_meV, g=2.0, energy_unit="meV")
+    chiT_meV = molar_susceptibility_times_temperature(f.chi_isothermal(T_meV), T_meV, g=2.0, energy_unit="meV")
     np.testing.assert_allclose(chiT_meV, chiT, rtol=RTOL_ROUNDING)
 
 
@@ -124,7 +124,7 @@ def test_molar_susceptibility_systems():
     lambda: molar_susceptibility(1.0, g=0.0),
     lambda: molar_susceptibility(1.0, g=True),
     lambda: molar_susceptibility(1.0, g=2.0, system="gaussian"),
-    lambda: molar_chi_T(1.0, 1.0, g=2.0, energy_unit="furlong"),
+    lambda: molar_susceptibility_times_temperature(1.0, 1.0, g=2.0, energy_unit="furlong"),
     lambda: curie_constant(-0.5, g=2.0),
     lambda: curie_constant(sp.Rational(1, 2), g=float("nan")),
 ])
