@@ -3,8 +3,6 @@
 Public facade: explicit re-exports only, no logic. See README.md and docs/.
 """
 
-from sympy import I, Rational
-
 from ._api import Model, Response, load_case
 from .algebra import (Operator, anticommutator, boson, commutator, dagger, fermion, nlevel, spin,
                       spinful_fermion)
@@ -18,7 +16,6 @@ from .models import Budget
 __version__ = "0.1.0"
 
 __all__ = [
-    "I", "Rational",
     "spin", "nlevel", "fermion", "spinful_fermion", "boson", "dagger", "commutator",
     "anticommutator", "Operator", "Model", "Response", "Budget", "load_case",
     "Verdict", "Report", "CheckRow",

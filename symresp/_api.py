@@ -59,7 +59,7 @@ class Model:
     --------
     >>> import sympy as sp, symresp as sr
     >>> J = sp.Symbol("J", positive=True)
-    >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     >>> model = sr.Model(J * (a.vec @ b.vec))
     >>> [(lv.energy, lv.degeneracy) for lv in model.levels()]
     [(J/4, 3), (-3*J/4, 1)]
@@ -126,8 +126,8 @@ class Model:
 
         Examples
         --------
-        >>> import symresp as sr
-        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sp.Rational(1, 2))
         >>> sr.Model(0 * s.z).matrix(s.x)
         Matrix([
         [  0, 1/2],
@@ -191,8 +191,8 @@ class Model:
 
         Examples
         --------
-        >>> import symresp as sr
-        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sp.Rational(1, 2))
         >>> r = sr.Model(0 * s.z).response(s.z, s.z)     # a free spin
         >>> r.static("isothermal"), r.static("isolated")  # Curie law vs. zero
         (beta/4, 0)
@@ -239,7 +239,7 @@ class Response:
     --------
     >>> import sympy as sp, symresp as sr
     >>> Delta = sp.Symbol("Delta", positive=True)
-    >>> q = sr.spin("q", sr.Rational(1, 2))
+    >>> q = sr.spin("q", sp.Rational(1, 2))
     >>> r = sr.Model(Delta * q.z).response(2 * q.x)        # two-level system, A = B = sigma_x
     >>> r.poles()
     [(-Delta, -tanh(Delta*beta/2)), (Delta, tanh(Delta*beta/2))]
@@ -293,8 +293,8 @@ class Response:
 
         Examples
         --------
-        >>> import symresp as sr
-        >>> s = sr.spin("s", sr.Rational(3, 2))
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sp.Rational(3, 2))
         >>> sr.Model(0 * s.z).response(s.z).static("isothermal")   # beta S(S+1)/3
         5*beta/4
         """
@@ -306,7 +306,7 @@ class Response:
         Examples
         --------
         >>> import sympy as sp, symresp as sr
-        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sr.Rational(1, 2))
+        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sp.Rational(1, 2))
         >>> r = sr.Model(h * s.z).response(s.x)
         >>> sp.simplify(r.frequency().subs(sr.omega, 0) - r.static("isolated"))
         0
@@ -319,7 +319,7 @@ class Response:
         Examples
         --------
         >>> import sympy as sp, symresp as sr
-        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sr.Rational(1, 2))
+        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sp.Rational(1, 2))
         >>> sr.Model(h * s.z).response(s.x).time()
         sin(h*t)*tanh(beta*h/2)/2
         """
@@ -331,7 +331,7 @@ class Response:
         Examples
         --------
         >>> import sympy as sp, symresp as sr
-        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> s = sr.spin("s", sp.Rational(1, 2))
         >>> sr.Model(0 * s.z).response(s.z).poles()    # a free spin has no transitions
         []
         """
@@ -343,7 +343,7 @@ class Response:
         Examples
         --------
         >>> import sympy as sp, symresp as sr
-        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sr.Rational(1, 2))
+        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sp.Rational(1, 2))
         >>> sr.Model(h * s.z).response(s.x).spectral_lines()[-1]
         (h, pi*tanh(beta*h/2)/4)
         """
@@ -355,7 +355,7 @@ class Response:
         Examples
         --------
         >>> import sympy as sp, symresp as sr
-        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sr.Rational(1, 2))
+        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sp.Rational(1, 2))
         >>> r = sr.Model(h * s.z).response(s.x)
         >>> sp.simplify(r.matsubara().subs(sr.nu, 0) - r.static("isolated"))
         0
@@ -408,8 +408,8 @@ class Response:
 
         Examples
         --------
-        >>> import symresp as sr
-        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sp.Rational(1, 2))
         >>> round(sr.Model(0 * s.z).response(s.z).evaluate("isothermal", T=0.5).real, 12)
         0.5
         """
@@ -421,8 +421,8 @@ class Response:
 
         Examples
         --------
-        >>> import symresp as sr
-        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sp.Rational(1, 2))
         >>> round(sr.Model(0 * s.z).response(s.z).reference(T=0.5).isothermal.real, 12)
         0.5
         """
@@ -443,8 +443,8 @@ class Response:
 
         Examples
         --------
-        >>> import symresp as sr
-        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sp.Rational(1, 2))
         >>> print(sr.Model(0 * s.z).response(s.z).check("beta/4"))
         agrees (exact)
         >>> sr.Model(0 * s.z).response(s.z).check("beta/4", "isolated").slip
@@ -459,7 +459,7 @@ class Response:
         Examples
         --------
         >>> import sympy as sp, symresp as sr
-        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sr.Rational(1, 2))
+        >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sp.Rational(1, 2))
         >>> sr.Model(h * s.z).response(s.x).consistency(points=1).ok
         True
         """
@@ -470,8 +470,8 @@ class Response:
 
         Examples
         --------
-        >>> import symresp as sr
-        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sp.Rational(1, 2))
         >>> sr.Model(0 * s.z).response(s.z).numpy().chi_isothermal(0.5)
         0.5
         """
@@ -482,8 +482,8 @@ class Response:
 
         Examples
         --------
-        >>> import symresp as sr
-        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sp.Rational(1, 2))
         >>> "import sympy" in sr.Model(0 * s.z).response(s.z).evaluator_source()
         False
         """
@@ -495,8 +495,8 @@ class Response:
 
         Examples
         --------
-        >>> import symresp as sr
-        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sp.Rational(1, 2))
         >>> "begin{aligned}" in sr.Model(0 * s.z).response(s.z).latex_document()
         True
         """
@@ -507,8 +507,8 @@ class Response:
 
         Examples
         --------
-        >>> import symresp as sr
-        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sp.Rational(1, 2))
         >>> print(sr.Model(0 * s.z).response(s.z).summary().splitlines()[0])
         Linear response chi_AB of model 'model'
         """
@@ -536,8 +536,8 @@ class Response:
 
         Examples
         --------
-        >>> import symresp as sr
-        >>> s = sr.spin("s", sr.Rational(1, 2))
+        >>> import sympy as sp, symresp as sr
+        >>> s = sr.spin("s", sp.Rational(1, 2))
         >>> print(sr.Model(0 * s.z).response(s.z).latex().splitlines()[1])
         Z &= 2 \\
         """

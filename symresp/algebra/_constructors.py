@@ -59,8 +59,8 @@ class SpinVector:
 
     Examples
     --------
-    >>> import symresp as sr
-    >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    >>> import sympy as sp, symresp as sr
+    >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     >>> (a.vec @ b.vec) == a.x * b.x + a.y * b.y + a.z * b.z
     True
     """
@@ -97,8 +97,8 @@ class SpinSite:
 
     Examples
     --------
-    >>> import symresp as sr
-    >>> s = sr.spin("s", sr.Rational(3, 2))
+    >>> import sympy as sp, symresp as sr
+    >>> s = sr.spin("s", sp.Rational(3, 2))
     >>> s.plus * s.minus - s.minus * s.plus == 2 * s.z
     True
     """
@@ -237,9 +237,9 @@ def spin(name: str, S: object) -> SpinSite:
 
     Examples
     --------
-    >>> import symresp as sr
+    >>> import sympy as sp, symresp as sr
     >>> s = sr.spin("s", "5/2")
-    >>> s.vec @ s.vec == sr.Rational(35, 4)          # S(S+1)
+    >>> s.vec @ s.vec == sp.Rational(35, 4)          # S(S+1)
     True
 
     See Also
@@ -384,9 +384,9 @@ def describe(op: Operator) -> str:
 
     Examples
     --------
-    >>> import symresp as sr
+    >>> import sympy as sp, symresp as sr
     >>> from symresp.algebra import describe
-    >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", 1)
+    >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", 1)
     >>> describe(a.z + 2 * b.x)
     'a.z + 2*b.x'
     """

@@ -37,9 +37,9 @@ class Basis:
 
     Examples
     --------
-    >>> import symresp as sr
+    >>> import sympy as sp, symresp as sr
     >>> from symresp.algebra import Basis
-    >>> a = sr.spin("a", sr.Rational(1, 2)); q = sr.nlevel("q", 3)
+    >>> a = sr.spin("a", sp.Rational(1, 2)); q = sr.nlevel("q", 3)
     >>> Basis.product((a.site, q.site)).dimension
     6
     """

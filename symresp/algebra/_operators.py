@@ -165,11 +165,11 @@ class Operator:
 
     Examples
     --------
-    >>> import symresp as sr
+    >>> import sympy as sp, symresp as sr
     >>> a = sr.spin("a", 1)
     >>> (a.x * a.x + a.y * a.y + a.z * a.z) == 2      # S(S+1) for S = 1
     True
-    >>> sr.commutator(a.x, a.y) == sr.I * a.z
+    >>> sr.commutator(a.x, a.y) == sp.I * a.z
     True
     """
 
@@ -375,8 +375,8 @@ def commutator(x: object, y: object) -> Operator:
 
     Examples
     --------
-    >>> import symresp as sr
-    >>> s = sr.spin("s", sr.Rational(1, 2))
+    >>> import sympy as sp, symresp as sr
+    >>> s = sr.spin("s", sp.Rational(1, 2))
     >>> sr.commutator(s.plus, s.minus) == 2 * s.z
     True
     """

@@ -110,7 +110,7 @@ class Verdict:
     --------
     >>> import sympy as sp, symresp as sr
     >>> from symresp.checks import compare
-    >>> s = sr.spin("s", sr.Rational(1, 2))
+    >>> s = sr.spin("s", sp.Rational(1, 2))
     >>> d = sr.Model(0 * s.z).response(s.z).derivation
     >>> v = compare(d, "beta/4")              # Curie law of a free spin 1/2
     >>> v.agrees, v.method
@@ -994,7 +994,7 @@ def compare(derivation: Derivation, formula: object, quantity: Quantity = "isoth
     >>> import sympy as sp, symresp as sr
     >>> from symresp.checks import compare
     >>> J = sp.Symbol("J", real=True)
-    >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     >>> d = sr.Model(J * (a.vec @ b.vec)).response(a.z + b.z).derivation
     >>> print(compare(d, "2*beta/(3 + exp(J/T))"))
     agrees (exact)

@@ -125,7 +125,7 @@ class Report:
     --------
     >>> import sympy as sp, symresp as sr
     >>> from symresp.checks import consistency
-    >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sr.Rational(1, 2))
+    >>> h = sp.Symbol("h", positive=True); s = sr.spin("s", sp.Rational(1, 2))
     >>> report = consistency(sr.Model(h * s.z).response(s.x).derivation, points=1)
     >>> report.ok, report.row("positivity").status
     (True, 'pass')
@@ -552,7 +552,7 @@ def consistency(derivation: Derivation, *, points: int = 3, seed: int = 0) -> Re
 
     >>> import sympy as sp, symresp as sr
     >>> from symresp.checks import consistency
-    >>> Delta = sp.Symbol("Delta", positive=True); q = sr.spin("q", sr.Rational(1, 2))
+    >>> Delta = sp.Symbol("Delta", positive=True); q = sr.spin("q", sp.Rational(1, 2))
     >>> report = consistency(sr.Model(Delta * q.z).response(q.x).derivation, points=2)
     >>> report.ok
     True

@@ -125,7 +125,7 @@ def latex_document(derivation: Derivation, *, substitutions: Mapping | None = No
     --------
     >>> import sympy as sp, symresp as sr
     >>> from symresp.emit import latex_document
-    >>> Delta = sp.Symbol("Delta", positive=True); q = sr.spin("q", sr.Rational(1, 2))
+    >>> Delta = sp.Symbol("Delta", positive=True); q = sr.spin("q", sp.Rational(1, 2))
     >>> doc = latex_document(sr.Model(Delta * q.z).response(2 * q.x).derivation)
     >>> print("\n".join(l for l in doc.splitlines() if l.startswith(("E_", r"\Omega"))))
     E_{1} &= \frac{\Delta}{2}, & d_{1} &= 1 \quad (S^z = \frac{1}{2}) \\

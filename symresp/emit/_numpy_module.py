@@ -378,7 +378,7 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     >>> import sympy as sp, symresp as sr
     >>> from symresp.emit import numpy_module_source, compile_module
     >>> J = sp.Symbol("J", real=True)
-    >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     >>> r = sr.Model(J * (a.vec @ b.vec), name="dimer").response(a.z + b.z)
     >>> mod = compile_module(numpy_module_source(r.derivation))
     >>> mod.PARAMETERS
@@ -532,7 +532,7 @@ def numpy_functions(derivation: Derivation) -> types.ModuleType:
     --------
     >>> import sympy as sp, symresp as sr
     >>> from symresp.emit import numpy_functions
-    >>> s = sr.spin("s", sr.Rational(1, 2))
+    >>> s = sr.spin("s", sp.Rational(1, 2))
     >>> f = numpy_functions(sr.Model(0 * s.z).response(s.z).derivation)
     >>> f.chi_isothermal(0.5)           # Curie law beta/4
     0.5

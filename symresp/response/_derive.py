@@ -418,7 +418,7 @@ def derive(system: System, A: Operator, B: Operator, *, convention: Convention =
     >>> import sympy as sp, symresp as sr
     >>> from symresp.models import System
     >>> from symresp.response import derive
-    >>> s = sr.spin("s", sr.Rational(1, 2))
+    >>> s = sr.spin("s", sp.Rational(1, 2))
     >>> d = derive(System.build(0 * s.z), s.z, s.z)
     >>> d.static("isothermal"), d.static("isolated")
     (beta/4, 0)

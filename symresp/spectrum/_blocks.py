@@ -222,7 +222,7 @@ def decompose(system: System, clock: Clock | None = None) -> BlockStructure:
     >>> from symresp.models import System
     >>> from symresp.spectrum import decompose
     >>> J = sp.Symbol("J", positive=True)
-    >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     >>> decompose(System.build(J * (a.vec @ b.vec))).describe()
     '3 blocks (sizes 1 x2, 2 x1); conserved: Sz'
     """

@@ -847,7 +847,7 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
     >>> from symresp.models import System
     >>> from symresp.spectrum import solve
     >>> J = sp.Symbol("J", positive=True)
-    >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     >>> sorted({p.energy for p in solve(System.build(J * (a.vec @ b.vec))).parts}, key=str)
     [-3*J/4, J/4]
     """

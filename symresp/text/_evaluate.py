@@ -167,7 +167,7 @@ def parse_operator(text: str, scope: Mapping[str, object], *, source: str = "<fo
     >>> import sympy as sp, symresp as sr
     >>> from symresp.text import parse_operator
     >>> J = sp.Symbol("J", positive=True)
-    >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     >>> H = parse_operator("J*dot(a, b)", {"a": a, "b": b, "J": J})
     >>> H == J * (a.vec @ b.vec)
     True

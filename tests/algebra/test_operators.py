@@ -29,7 +29,7 @@ def test_spin_components_obey_the_angular_momentum_algebra(S):
     for a in range(3):
         for b in range(3):
             c = 3 - a - b
-            expected = 0 if a == b else sp.LeviCivita(a, b, c) * sr.I * comps[c]
+            expected = 0 if a == b else sp.LeviCivita(a, b, c) * sp.I * comps[c]
             assert sr.commutator(comps[a], comps[b]) == expected
     Sv = sp.Rational(S)
     assert s.vec @ s.vec == Sv * (Sv + 1)
@@ -107,7 +107,7 @@ def test_hermiticity_and_real_parameters():
     J = sp.Symbol("J", real=True)
     a, b = sr.spin("a", "1/2"), sr.spin("b", "1/2")
     assert (J * (a.vec @ b.vec)).is_hermitian()
-    assert not (sr.I * a.x).is_hermitian()
+    assert not (sp.I * a.x).is_hermitian()
     with pytest.raises(sr.NotHermitianError, match="not Hermitian"):
         sr.Model(a.plus)
     K = sp.Symbol("K")  # no real assumption: H is not Hermitian for complex K

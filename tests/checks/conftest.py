@@ -7,7 +7,7 @@ import sympy as sp
 
 import symresp as sr
 
-HALF = sr.Rational(1, 2)
+HALF = sp.Rational(1, 2)
 
 
 @pytest.fixture(scope="session")

@@ -93,7 +93,7 @@ def test_sympy_expressions_are_accepted_by_name(dimer):
 def test_large_expressions_are_decided_by_sampling():
     # open chain of three spins 1/2 in a field, transverse response: a few hundred operations
     J, h = sp.Symbol("J", real=True), sp.Symbol("h", positive=True)
-    a, b, c = (sr.spin(x, sr.Rational(1, 2)) for x in "abc")
+    a, b, c = (sr.spin(x, sp.Rational(1, 2)) for x in "abc")
     r = sr.Model(J * (a.vec @ b.vec + b.vec @ c.vec) + h * (a.z + b.z + c.z)).response(a.x + b.x + c.x)
     chi = sp.sstr(r.static("isothermal"))
     v = compare(r.derivation, f"({chi})*(cosh(beta*J)^2 - sinh(beta*J)^2)")
@@ -156,7 +156,7 @@ def test_isolated_value_given_when_the_isothermal_one_is_asked(free_spin):
 def test_isolated_given_for_isothermal_prints_the_missing_term():
     # spin 1/2 in a longitudinal field: chi_isol = 0, chi_T = beta/(4 cosh^2(beta h/2))
     h = sp.Symbol("h", positive=True)
-    s = sr.spin("s", sr.Rational(1, 2))
+    s = sr.spin("s", sp.Rational(1, 2))
     d = sr.Model(h * s.z).response(s.z).derivation
     v = compare(d, "0")
     _differs(v, "isolated-for-isothermal", "the isothermal one adds")
@@ -175,7 +175,7 @@ def test_two_level_with_omega_reversed(two_level_ladder):
 
 def test_retarded_given_for_an_advanced_derivation():
     Delta = sp.Symbol("Delta", positive=True)
-    q = sr.spin("q", sr.Rational(1, 2))
+    q = sr.spin("q", sp.Rational(1, 2))
     r = sr.Model(Delta * q.z).response(q.minus, q.plus, convention=sr.Convention(prescription="advanced"))
     assert compare(r.derivation, "tanh(beta*Delta/2)/(Delta - (omega - I*eta))", "frequency").agrees
     v = compare(r.derivation, "tanh(beta*Delta/2)/(Delta - (omega + I*eta))", "frequency")
@@ -190,7 +190,7 @@ def test_time_reversed(two_level):
 
 def two_level_ladder_derivation():
     Delta = sp.Symbol("Delta", positive=True)
-    q = sr.spin("q", sr.Rational(1, 2))
+    q = sr.spin("q", sp.Rational(1, 2))
     return sr.Model(Delta * q.z).response(q.minus, q.plus).derivation
 
 
@@ -265,7 +265,7 @@ def test_counterexample_uses_the_names_of_the_formula(dimer, two_level):
 def test_units_k_B_and_hbar():
     # J in meV, T in kelvin: beta = 1/(k_B T) with k_B = 0.0861733 meV/K (CODATA 2018; common practice)
     J = sp.Symbol("J", real=True)
-    a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     d = sr.Model(J * (a.vec @ b.vec)).response(a.z + b.z).derivation
     units = {"k_B": 0.0861733}
     assert compare(d, "2/(k_B*T*(3 + exp(J/(k_B*T))))", units=units).agrees
@@ -273,7 +273,7 @@ def test_units_k_B_and_hbar():
     _differs(v, "coupling", "J -> 2*J")
     # chi(t) = (i/hbar) theta(t) <[A(t), B]> with A(t) = exp(iHt/hbar) A exp(-iHt/hbar)
     Delta = sp.Symbol("Delta", positive=True)
-    q = sr.spin("q", sr.Rational(1, 2))
+    q = sr.spin("q", sp.Rational(1, 2))
     d2 = sr.Model(Delta * q.z).response(2 * q.x).derivation
     # hbar in meV ps, rounded (common practice); the identity holds for any value
     assert compare(d2, "2*tanh(beta*Delta/2)*sin(Delta*t/hbar)/hbar", "time", units={"hbar": 0.6582}).agrees
@@ -323,7 +323,7 @@ def test_bad_formulas_raise_input_error(dimer):
 
 def test_advanced_time_comparison_is_refused():
     Delta = sp.Symbol("Delta", positive=True)
-    q = sr.spin("q", sr.Rational(1, 2))
+    q = sr.spin("q", sp.Rational(1, 2))
     r = sr.Model(Delta * q.z).response(q.x, convention=sr.Convention(prescription="advanced"))
     with pytest.raises(InputError, match="advanced"):
         compare(r.derivation, "0", "time")

@@ -15,7 +15,7 @@ from symresp.checks._consistency import KK_TOL
 from symresp.errors import InputError
 from symresp.response import Level
 
-HALF = sr.Rational(1, 2)
+HALF = sp.Rational(1, 2)
 J = sp.Symbol("J", real=True)
 h = sp.Symbol("h", positive=True)
 

@@ -19,7 +19,7 @@ from symresp.emit import compile_module, numpy_module_source
 
 from ..numeric._kron import embed, spin_matrices
 
-HALF = sr.Rational(1, 2)
+HALF = sp.Rational(1, 2)
 J = sp.Symbol("J", real=True)
 h = sp.Symbol("h", real=True)
 D = sp.Symbol("D", real=True)

@@ -34,7 +34,7 @@ RTOL_JAC_VS_NUMERIC = 1e-6
 @pytest.fixture(scope="module")
 def qx17():
     J = sp.Symbol("J", real=True)
-    a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     r = sr.Model(J * (a.vec @ b.vec), name="Tandrel salt").response(a.z + b.z)
     f = numpy_functions(r.derivation)
     # chi_mol = K g^2 chi(T, J), chi per molecule in 1/K (A = B = total S^z).

@@ -131,7 +131,7 @@ def test_inplace_kernel_reuses_its_temporaries():
 
 def test_emitted_functions_leave_their_arguments_untouched():
     J, h = sp.Symbol("J", real=True), sp.Symbol("h", real=True)
-    a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     r = sr.Model(J * (a.vec @ b.vec) + h * (a.z + b.z), name="dimer").response(a.x + b.x)
     mod = compile_module(numpy_module_source(r.derivation))
     T = np.linspace(0.1, 3.0, 50)
@@ -149,7 +149,7 @@ def test_stacked_levels_agree_on_every_path():
     # Four levels (dimer in a field): Boltzmann factors as one array, sums as products with
     # it. Grids, parameter arrays and single numbers must give the same numbers.
     J, h = sp.Symbol("J", real=True), sp.Symbol("h", real=True)
-    a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     r = sr.Model(J * (a.vec @ b.vec) + h * (a.z + b.z), name="dimer").response(a.z + b.z)
     src = numpy_module_source(r.derivation)
     assert "_bexpt_m(" in src and "_lincomb_m(_X" in src
@@ -171,7 +171,7 @@ def test_grid_jacobian_equals_the_scalar_path_across_the_series_threshold():
     # threshold (1e-2) on this grid, so both branches of the grid helpers run, and the scalar
     # path (math, term by term) is an independent implementation.
     J, h = sp.Symbol("J", real=True), sp.Symbol("h", real=True)
-    a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     r = sr.Model(J * (a.vec @ b.vec) + h * (a.z + b.z), name="dimer").response(a.x + b.x)
     mod = compile_module(numpy_module_source(r.derivation))
     T = np.geomspace(1e-2, 1e4, 60)

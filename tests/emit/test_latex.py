@@ -34,7 +34,7 @@ def test_document_is_one_aligned_block_with_all_parts():
 
 def test_levels_show_degeneracies_and_quantum_numbers():
     J = sp.Symbol("J", real=True)
-    a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+    a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
     doc = latex_document(sr.Model(J * (a.vec @ b.vec)).response(a.z + b.z).derivation)
     levels = [r for r in _rows(doc) if r.startswith("E_{")]
     assert levels[0].startswith(r"E_{1} &= \frac{J}{4}, & d_{1} &= 3")
@@ -45,7 +45,7 @@ def test_levels_show_degeneracies_and_quantum_numbers():
 def test_symbols_are_typeset_as_physicists_write_them():
     eps, D0 = sp.Symbol("epsilon", real=True), sp.Symbol("Delta_0", positive=True)
     J1 = sp.Symbol("J_1", real=True)
-    q, s = sr.spin("q", sr.Rational(1, 2)), sr.spin("s", sr.Rational(1, 2))
+    q, s = sr.spin("q", sp.Rational(1, 2)), sr.spin("s", sp.Rational(1, 2))
     doc = latex_document(sr.Model(eps * q.z + D0 * q.x).response(q.z).derivation)
     doc += latex_document(sr.Model(J1 * (q.vec @ s.vec)).response(q.z + s.z).derivation)
     assert r"\beta" in doc and r"\epsilon" in doc and r"\Delta_{0}" in doc and "J_{1}" in doc
@@ -55,7 +55,7 @@ def test_symbols_are_typeset_as_physicists_write_them():
 def test_named_combinations_are_substituted_and_defined():
     eps, D0 = sp.Symbol("epsilon", real=True), sp.Symbol("Delta_0", positive=True)
     Om = sp.Symbol("Omega", positive=True)
-    q = sr.spin("q", sr.Rational(1, 2))
+    q = sr.spin("q", sp.Rational(1, 2))
     r = sr.Model(eps * q.z + D0 * q.x).response(q.z)
     plain = latex_document(r.derivation)
     named = latex_document(r.derivation, substitutions={Om: sp.sqrt(eps**2 + D0**2)})
@@ -81,7 +81,7 @@ def test_implicit_roots_are_named_and_defined():
 ])
 def test_pole_sum_states_the_prescription_of_the_convention(convention, sign):
     h = sp.Symbol("h", positive=True)
-    s = sr.spin("s", sr.Rational(1, 2))
+    s = sr.spin("s", sp.Rational(1, 2))
     doc = latex_document(sr.Model(h * s.z).response(s.x, convention=convention).derivation)
     assert rf"\frac{{w_k}}{{\Omega_k - \omega {sign} i0^+}}" in doc
 

@@ -365,7 +365,7 @@ def test_complex_pole_sums_whose_first_term_is_real():
     # start complex. Found by the random-model search (numpy refused the complex += at run time).
     s0, s1 = sr.nlevel("s0", 3), sr.fermion("s1")
     H = (s0.op(0, 2) * sr.dagger(s1) + s0.op(1, 2) + s0.op(2, 0) * s1 + s0.op(2, 1)
-         - sr.Rational(1, 2) * (s1 + sr.dagger(s1)))
+         - sp.Rational(1, 2) * (s1 + sr.dagger(s1)))
     A, B = sr.dagger(s1) * s1, s0.op(0, 2)
     model = sr.Model(H)
     mod = compile_module(numpy_module_source(model.response(A, B).derivation))
@@ -452,7 +452,7 @@ def test_generator_rejects_bad_name():
     Convention(perturbation="H0 + f B", fourier="-i omega t", prescription="advanced"),
 ])
 def test_conventions_follow_the_derivation(convention):
-    s = sr.spin("s", sr.Rational(1, 2))
+    s = sr.spin("s", sp.Rational(1, 2))
     hh = sp.Symbol("h", positive=True)
     model = sr.Model(hh * s.z + 0 * s.x)
     r = model.response(s.x, s.y, convention=convention)

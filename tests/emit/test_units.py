@@ -100,7 +100,7 @@ def test_curie_constant_of_a_spin_half_with_g_2():
 
 
 def test_free_spin_evaluator_gives_the_curie_law_in_molar_units():
-    s = sr.spin("s", sr.Rational(1, 2))
+    s = sr.spin("s", sp.Rational(1, 2))
     f = numpy_functions(sr.Model(0 * s.z).response(s.z).derivation)
     T = np.array([2.0, 10.0, 300.0])                       # kelvin
     chiT = molar_susceptibility_times_temperature(f.chi_isothermal(T), T, g=2.0)

@@ -80,7 +80,7 @@ from symresp.models import System
 from symresp.response import derive
 from symresp.spectrum import decompose, solve
 
-HALF = sr.Rational(1, 2)
+HALF = sp.Rational(1, 2)
 J = sp.Symbol("J", positive=True)
 h = sp.Symbol("h", real=True)
 POINT = {J: sp.Integer(1), h: sp.Rational(3, 10), BETA: sp.Rational(7, 5)}  # fixed check point

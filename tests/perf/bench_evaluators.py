@@ -53,7 +53,7 @@ import symresp as sr  # noqa: E402
 from symresp.conventions import beta as BETA  # noqa: E402
 from symresp.emit import compile_module, numpy_module_source  # noqa: E402
 
-HALF = sr.Rational(1, 2)
+HALF = sp.Rational(1, 2)
 J = sp.Symbol("J", real=True)
 h = sp.Symbol("h", real=True)
 Delta = sp.Symbol("Delta", positive=True)
