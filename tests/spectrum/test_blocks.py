@@ -20,7 +20,7 @@ from symresp.spectrum import decompose
 from tests.conftest import ATOL_EXACT
 from tests.strategies import parameter_points, random_models
 
-HALF = sr.Rational(1, 2)
+HALF = sp.Rational(1, 2)
 w = sp.Symbol("w", positive=True)
 g = sp.Symbol("g", positive=True)
 J = sp.Symbol("J", positive=True)
@@ -120,7 +120,7 @@ def test_rhombic_ion_reports_the_parity_of_m():
     D, Erh = sp.Symbol("D", real=True), sp.Symbol("Erh", positive=True)
     s = sr.spin("s", 10)
     assert names(D * s.z ** 2 + Erh * (s.x ** 2 - s.y ** 2)) == ("s.z mod 2",)
-    s3 = sr.spin("s3", sr.Rational(5, 2))
+    s3 = sr.spin("s3", sp.Rational(5, 2))
     assert names(D * s3.z ** 2 + Erh * (s3.x ** 2 - s3.y ** 2)) == ("(s3.z+1/2) mod 2",)
     # A transverse field mixes every m: nothing is conserved.
     h = sp.Symbol("h", real=True)
