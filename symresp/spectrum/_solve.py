@@ -46,7 +46,7 @@ from ..models import Clock, System
 from ._blocks import Block, BlockStructure, decompose
 from ._quadratic import Radical, Surd, bilinear
 from ._roots import LevelRoot
-from ._symmetry import decompose_entries, find_symmetries, split_block, transform
+from ._symmetry import SECTOR_NAMES, decompose_entries, find_symmetries, split_block, transform
 
 __all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean", "is_zero_number"]
 
@@ -240,10 +240,9 @@ class Spectrum:
         parts = ", ".join(f"{k} x{v}" for k, v in sorted(sizes.items()))
         qn = ", ".join(q.name for q in self.structure.quantum_numbers) or "none"
         text = f"{len(self.solutions)} blocks (sizes {parts}); conserved: {qn}"
-        sym = [s for s, word in (("k", "ring translation"), ("S", "total spin"))
+        sym = [s for s in SECTOR_NAMES
                if any(n == s for sol in self.solutions for n, _ in sol.block.labels)]
-        names = {"k": "k (ring translation)", "S": "S (total spin)"}
-        return text + (f"; symmetry sectors: {', '.join(names[x] for x in sym)}" if sym else "")
+        return text + (f"; symmetry sectors: {', '.join(SECTOR_NAMES[x] for x in sym)}" if sym else "")
 
     def split(self, op: SparseForm) -> dict[tuple[int, int], dict[tuple[int, int], sp.Expr]]:
         """Matrix elements of an operator grouped by (row block, column block) in local indices.
