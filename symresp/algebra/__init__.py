@@ -3,6 +3,7 @@
 Imports sympy, numpy, :mod:`symresp.errors` and :mod:`symresp.conventions` only.
 """
 
+from ._closure import MAX_COMMUTATORS, MAX_SPACE_DIMENSION, OperatorSpace, close_under, coordinates
 from ._constructors import (MAX_CUTOFF, MAX_LEVELS, MAX_SPIN, LevelSite, SpinSite, SpinVector,
                             boson, describe, fermion, nlevel, spin, spinful_fermion)
 from ._matrix import MAX_DIMENSION, Basis, SparseForm, sparse_form, to_array, to_sympy_matrix
@@ -14,4 +15,5 @@ __all__ = [
     "commutator", "anticommutator", "spin", "nlevel", "fermion", "spinful_fermion", "boson",
     "SpinSite", "LevelSite", "describe", "SpinVector", "MAX_SPIN", "MAX_LEVELS", "MAX_CUTOFF",
     "Basis", "SparseForm", "sparse_form", "to_sympy_matrix", "to_array", "MAX_DIMENSION",
+    "OperatorSpace", "close_under", "coordinates", "MAX_SPACE_DIMENSION", "MAX_COMMUTATORS",
 ]

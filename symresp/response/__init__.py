@@ -6,5 +6,7 @@ Imports sympy, :mod:`symresp.conventions`, :mod:`symresp.errors`, :mod:`symresp.
 """
 
 from ._derive import Derivation, Level, StaticKind, Transition, derive, present
+from ._motion import Gibbs, MotionDerivation, PolePair, derive_motion
 
-__all__ = ["Derivation", "Level", "Transition", "StaticKind", "derive", "present"]
+__all__ = ["Derivation", "Level", "Transition", "StaticKind", "derive", "present", "MotionDerivation",
+           "PolePair", "Gibbs", "derive_motion"]
