@@ -1,29 +1,37 @@
-r"""Symmetry sectors inside a block: ring translations and total spin (layer: spectrum).
+r"""Symmetry sectors inside a block: translations, reflections, spin flip, particle-hole and
+total spin (layer: spectrum).
 
-Owns :class:`Sector`, :func:`find_symmetries`, :func:`split_block` and :func:`transform`.
-Imports sympy, python-flint and :mod:`symresp.algebra`.
+Owns :class:`Sector`, :class:`Operation`, :func:`find_symmetries`, :func:`split_block`,
+:func:`transform` and the Fock-space actions :func:`mode_permutation` and
+:func:`particle_hole`. Imports sympy, python-flint and :mod:`symresp.algebra`.
 
 A block of the product basis (a connected component of H, see :mod:`._blocks`) can still be
-large: the :math:`S^z = 0` block of an 8-site ring has 70 states. Two symmetries split it
-further, with exact rational arithmetic only (no roots of unity, no surds):
+large: the :math:`S^z = 0` block of an 8-site ring has 70 states. Symmetries split it further,
+with exact rational arithmetic only (no roots of unity, no surds):
 
-*Translations.* When all sites are alike (spins, or n-level sites; no fermions) and the cyclic
-shift of the sites :math:`T: i \to i+1 \bmod N` (in creation order) leaves H unchanged, the
-group algebra :math:`\mathbb{Q}[T]/(T^N - 1)` splits by the cyclotomic factors
+*Translations.* When all sites are alike (spins, or n-level sites) or all are fermion
+orbitals, and the cyclic shift :math:`T: i \to i+1 \bmod N` (in creation order) leaves H
+unchanged, the group algebra :math:`\mathbb{Q}[T]/(T^N - 1)` splits by the cyclotomic factors
 :math:`\Phi_d`, :math:`d \mid N`. The idempotent :math:`e_d(x) \equiv 1 \pmod{\Phi_d}`,
 :math:`\equiv 0` modulo the other factors, gives the projector :math:`e_d(T)` onto all momenta
 :math:`k = 2\pi j/N` with :math:`N/\gcd(j, N) = d` at once (``k=0``, ``k=pi``, ``k=+-pi/2``, ...): a
 rational matrix, which a single momentum would not be.
 
-*Total spin.* When all sites are spins, :math:`S^2` has rational matrix elements in the
-product basis (S = 1/2 and 1 always do) and commutes with H, its eigenspaces are split off with
-the Lagrange projectors :math:`\prod_{S' \ne S}(S^2 - S'(S'+1))/(S(S+1) - S'(S'+1))`.
+*Involutions* (fermion lattices): the reflection, the spin flip and the particle-hole map
+split each sector by :math:`(1 \pm U)/2`. On Fock states they act as signed permutations:
+the Jordan-Wigner sign of reordering the created modes (:func:`mode_permutation`,
+:func:`particle_hole`).
+
+*Total spin.* When all sites are spins (or spinful fermion orbitals), :math:`S^2` has rational
+matrix elements in the block's basis and commutes with H there, its eigenspaces are split off
+with the Lagrange projectors :math:`\prod_{S' \ne S}(S^2 - S'(S'+1))/(S(S+1) - S'(S'+1))`.
 
 A sector is given by a basis :math:`V` (columns, n x m) of its subspace and the dual rows
 :math:`V^+` (m x n) with :math:`V^+V = 1` and :math:`\sum_s V_sV_s^+ = 1`. H and every operator
 are carried over as :math:`V_s^+ X V_t`; the block solver then works on the sector exactly as
-on a block (its matrix need not be symmetric: projectors are polynomials in it). Blocks whose
-matrix needed a diagonal rescaling to remove square roots (spins >= 3/2) are not split.
+on a block (its matrix need not be symmetric: projectors are polynomials in it). Operators of
+blocks whose matrix needed a diagonal rescaling D (spins >= 3/2) are taken as
+:math:`D^{-1} X D` and used only where that is rational. See docs/engine.md, section 2.
 """
 
 from __future__ import annotations
