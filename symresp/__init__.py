@@ -11,6 +11,7 @@ from .errors import (BudgetExceeded, ClosedFormError, InputError, NotConservedEr
                      NotHermitianError, SymrespError)
 
 from .checks import CheckRow, Report, Verdict
+from .emit import magnetic_moment, zeeman
 from .models import Budget
 
 __version__ = "0.1.0"
@@ -22,4 +23,5 @@ __all__ = [
     "beta", "omega", "t", "eta", "nu", "Convention",
     "SymrespError", "InputError", "NotHermitianError", "NotConservedError", "BudgetExceeded",
     "ClosedFormError",
+    "zeeman", "magnetic_moment",
 ]

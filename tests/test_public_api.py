@@ -18,6 +18,7 @@ PUBLIC = {
     "beta", "omega", "t", "eta", "nu", "Convention",
     "SymrespError", "InputError", "NotHermitianError", "NotConservedError", "BudgetExceeded",
     "ClosedFormError",
+    "zeeman", "magnetic_moment",
 }
 
 

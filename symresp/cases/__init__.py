@@ -11,6 +11,10 @@ from ._find import (ENV_VARIABLE, CaseSummary, bundled_cases, case_directories, 
 from ._numbers import PRECISE_DIGITS, evaluate_arrays, evaluate_precise
 from ._read import (ASSUMPTIONS, DEFAULT_QUANTITIES, MAX_CASE_BYTES, QUANTITIES, SITE_KINDS, Case,
                     Parameter, ResponseRequest, SiteSpec, parse_case, read_case)
+from ._data import COLUMNS, MEASURED, DataTable, parse_data, read_data
+from ._fit import Curve, FitResult, MagnetometryModel, fit_case, magnetometry_model
+from ._magnet import ORIENTATIONS, Magnetism, SampleSpec, ZeemanSpec
+from ._values import parameter_values, parse_assignments, with_values
 from ._verify import (VERIFY_ATOL, VERIFY_RTOL, Check, Verification, derive_case, energy_scale,
                       sample_point, verify_case)
 
@@ -21,4 +25,8 @@ __all__ = [
     "evaluate_precise", "evaluate_arrays", "PRECISE_DIGITS",
     "derive_case", "verify_case", "Check", "Verification", "sample_point", "energy_scale",
     "VERIFY_RTOL", "VERIFY_ATOL", "Curves", "response_curves",
+    "Magnetism", "ZeemanSpec", "SampleSpec", "ORIENTATIONS",
+    "parse_assignments", "parameter_values", "with_values",
+    "DataTable", "read_data", "parse_data", "MEASURED", "COLUMNS",
+    "fit_case", "FitResult", "Curve", "magnetometry_model", "MagnetometryModel",
 ]

@@ -46,10 +46,12 @@ import sympy as sp
 from ..algebra import (MAX_CUTOFF, MAX_DIMENSION, MAX_LEVELS, MAX_SPIN, LevelSite, Operator,
                        SpinSite, boson, fermion, nlevel, spin)
 from ..conventions import RESERVED_NAMES
+from ..emit import temperature_unit_name
 from ..errors import InputError, NotConservedError, NotHermitianError
 from ..models import System
 from ..text import RESERVED_WORDS, ParseError, parse_operator
 from ._locate import KeyPlace, Locator
+from ._magnet import Magnetism, read_magnetism
 
 __all__ = ["Case", "Parameter", "SiteSpec", "ResponseRequest", "read_case", "parse_case",
            "QUANTITIES", "DEFAULT_QUANTITIES", "ASSUMPTIONS", "SITE_KINDS", "MAX_CASE_BYTES"]
@@ -69,8 +71,9 @@ SITE_KINDS = ("spin", "levels", "fermion", "spinful fermion", "boson")
 #: Largest case file accepted (bytes).
 MAX_CASE_BYTES = 1_000_000
 
-_TOP_KEYS = ("model", "parameters", "sites", "observables", "sector", "response")
-_MODEL_KEYS = ("name", "description", "hamiltonian", "energy_unit")
+_TOP_KEYS = ("model", "parameters", "sites", "observables", "sector", "response", "zeeman",
+             "sample")
+_MODEL_KEYS = ("name", "description", "hamiltonian", "energy_unit", "temperature_unit")
 _PARAMETER_KEYS = ("assume", "value", "unit", "description")
 _RESPONSE_KEYS = ("label", "A", "B", "quantities")
 _SECTOR_KEYS = ("operator", "value")
@@ -136,6 +139,11 @@ class Case:
     responses : tuple of ResponseRequest
     energy_unit : str
         Unit of energies and temperatures (k_B = 1), empty when not given.
+    magnetism : Magnetism or None
+        The ``[zeeman]`` and ``[sample]`` sections (``docs/case-files.md``); the Zeeman term is
+        already part of ``system``'s Hamiltonian.
+    temperature_unit : str
+        Unit of measured temperatures (data files, magnetometry), ``"K"`` unless given.
 
     Examples
     --------
@@ -165,6 +173,8 @@ class Case:
     sector_text: tuple[tuple[str, sp.Rational], ...]
     responses: tuple[ResponseRequest, ...]
     energy_unit: str
+    magnetism: Magnetism | None = None
+    temperature_unit: str = "K"
 
     @property
     def defaults(self) -> dict[sp.Symbol, sp.Rational]:
@@ -381,6 +391,7 @@ class _Reader:
             raise self.fail("[model] name", "the name is empty", self.place(("model",), "name"))
         description = self.string(model, "description", ("model",), "[model]")
         energy_unit = self.string(model, "energy_unit", ("model",), "[model]")
+        temperature_unit = self.string(model, "temperature_unit", ("model",), "[model]")
         h_text = self.string(model, "hamiltonian", ("model",), "[model]", required=True)
 
         parameters = self.parameters(data.get("parameters", {}))
@@ -393,6 +404,10 @@ class _Reader:
                                                    "model of free sites",
                             self.place(("model",), "hamiltonian"))
         H = self.expression(h_text, scope, ("model",), "hamiltonian", "[model] hamiltonian")
+        magnetism = read_magnetism(self, data, parameters, site_scope, energy_unit,
+                                   temperature_unit)
+        if magnetism is not None and magnetism.zeeman is not None:
+            H = H + magnetism.zeeman.term
         observables, obs_text = self.observables(data.get("observables", {}), scope)
         sector, sector_text = self.sector(data.get("sector"), scope)
         all_sites = [s for h in site_scope.values() for s in _sites_of(h)]
@@ -414,7 +429,8 @@ class _Reader:
         responses = self.responses(data.get("response", []), response_scope, system)
         return Case(name.strip(), description.strip(), self.source, system, tuple(parameters),
                     tuple(sites), h_text, tuple(obs_text), tuple(sector_text), tuple(responses),
-                    energy_unit.strip())
+                    energy_unit.strip(), magnetism,
+                    temperature_unit_name(temperature_unit.strip()) if temperature_unit else "K")
 
     def toml_error(self, err: tomllib.TOMLDecodeError) -> ParseError:
         msg = str(err)

@@ -24,13 +24,15 @@ from pathlib import Path
 
 from .. import emit as emit_layer
 from ..cases import (QUANTITIES, Case, bundled_cases, case_directories, case_summary, derive_case,
-                     find_case, read_case, response_curves, verify_case)
+                     find_case, parse_assignments, read_case, response_curves, verify_case,
+                     with_values)
 from ..checks import QUANTITIES as CHECKED_QUANTITIES
 from ..checks import compare, consistency
 from ..errors import InputError, SymrespError
 from ..models import Budget
 from ..response import Derivation
 from ..text import ParseError
+from ._fit import add_fit_parser
 from ._format import derivation_json, describe_case, describe_derivation, verification_table
 from ._plot import HAVE_MATPLOTLIB, write_plots
 
@@ -123,6 +125,9 @@ def build_parser() -> argparse.ArgumentParser:
                         help="do not print progress stages on stderr")
     common.add_argument("--debug", action="store_true",
                         help="show the Python traceback of an internal error")
+    common.add_argument("--set", action="append", metavar="NAME=VALUE",
+                        help="give parameter NAME the exact value VALUE (repeatable); the model "
+                             "then has the number in place of the name")
     with_case = _case_parent(common, "only the response with this label (default: all)")
     one_response = _case_parent(common, "the response to compare with; needed when the case has "
                                         "several (not for --quantity partition)")
@@ -222,6 +227,8 @@ def build_parser() -> argparse.ArgumentParser:
                                    "Python file.")
     p.add_argument("--out", required=True, metavar="FILE", help="the Python file to write")
     p.set_defaults(run=_cmd_emit)
+
+    add_fit_parser(sub, common, _positive_float)
     return parser
 
 
@@ -268,7 +275,7 @@ def main(argv: Sequence[str] | None = None) -> int:
 def _load(args: argparse.Namespace, progress: _Progress) -> Case:
     path = find_case(args.case)
     progress(f"reading {path}")
-    case = read_case(path)
+    case = with_values(read_case(path), parse_assignments(args.set))
     if args.response is not None:
         # keep only the chosen response (InputError for an unknown label)
         case = dataclasses.replace(case, responses=(case.response(args.response),))
@@ -291,6 +298,9 @@ def _quantities_of(case: Case, label: str, override: list[str] | None) -> tuple[
 
 
 def _cmd_list(args: argparse.Namespace, progress: _Progress) -> int:
+    if args.set:
+        raise InputError("--set has nothing to set in 'list'; use it with a command that reads a "
+                         "case")
     paths = bundled_cases()
     if not paths:
         dirs = ", ".join(str(d) for d in case_directories()) or "none"

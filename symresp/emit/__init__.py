@@ -6,17 +6,28 @@ Public surface:
   module evaluating a derived response (static chi and its parameter Jacobian, chi(omega),
   broadened spectra, chi(t)) that stays finite at low temperature and at level crossings;
 * :func:`latex_document`: paper-ready equations;
-* energy units and molar magnetic susceptibilities (:mod:`._units`).
+* energy units and molar magnetic susceptibilities (:mod:`._units`);
+* the Zeeman term from g tensors and a field in tesla, magnetic moments and orientation
+  quadratures (:mod:`._magnet`); molar magnetometry and its corrections
+  (:mod:`._magnetometry`); magnetisation from the closed-form levels
+  (:mod:`._levelfunctions`).
 
 Imports the layers below it (response, spectrum, conventions, errors); nothing below imports it.
 """
 
 from ._latex import latex_document
+from ._levelfunctions import LevelFunctions, evaluator_parameters, level_functions
+from ._magnet import (AXES, GTensor, Quadrature, field_direction, g_tensor, magnetic_moment,
+                      orientation_quadrature, zeeman)
+from ._magnetometry import (SYSTEMS, Corrections, brillouin, effective_moment, molar_factor,
+                            moment_factor, powder_average)
 from ._numpy_module import compile_module, numpy_functions, numpy_module_source, symresp_version
-from ._units import (AVOGADRO, BOHR_MAGNETON, BOLTZMANN, ELEMENTARY_CHARGE, ENERGY_UNITS, PLANCK,
-                     SPEED_OF_LIGHT, VACUUM_PERMEABILITY, convert_energy, curie_constant,
-                     energy_factor, energy_in_joule, molar_susceptibility,
-                     molar_susceptibility_times_temperature)
+from ._units import (AVOGADRO, BOHR_MAGNETON, BOLTZMANN, ELEMENTARY_CHARGE, ENERGY_UNITS, EXACT,
+                     PLANCK, SPEED_OF_LIGHT, TEMPERATURE_UNITS, VACUUM_PERMEABILITY,
+                     convert_energy, curie_constant, energy_factor, energy_in_joule,
+                     energy_in_joule_exact, energy_unit_name, molar_susceptibility,
+                     molar_susceptibility_times_temperature, temperature_factor,
+                     temperature_unit_name, zeeman_constant)
 
 __all__ = [
     "numpy_module_source", "compile_module", "numpy_functions", "symresp_version",
@@ -25,4 +36,11 @@ __all__ = [
     "molar_susceptibility_times_temperature",
     "curie_constant", "ENERGY_UNITS", "PLANCK", "BOLTZMANN", "ELEMENTARY_CHARGE",
     "SPEED_OF_LIGHT", "AVOGADRO", "BOHR_MAGNETON", "VACUUM_PERMEABILITY",
+    "EXACT", "TEMPERATURE_UNITS", "energy_in_joule_exact", "zeeman_constant", "temperature_factor",
+    "energy_unit_name", "temperature_unit_name",
+    "GTensor", "g_tensor", "field_direction", "zeeman", "magnetic_moment", "orientation_quadrature",
+    "Quadrature", "AXES",
+    "molar_factor", "moment_factor", "effective_moment", "brillouin", "Corrections",
+    "powder_average", "SYSTEMS",
+    "LevelFunctions", "level_functions", "evaluator_parameters",
 ]

@@ -19,12 +19,18 @@ the field couples to :math:`S^z_{\rm tot}` with :math:`f = g\mu_B B`, so with
 with :math:`\chi` expressed per joule. For energies in kelvin the cgs prefactor is
 :math:`N_A\mu_B^2/k_B = 0.37515\ \mathrm{cm^3\,K\,mol^{-1}}`.
 
-Imports: math and :mod:`symresp.errors` only.
+Exact forms. Every constant is also held as an exact rational (:data:`EXACT`, a
+:class:`fractions.Fraction` of the quoted CODATA 2018 digits), so that a Zeeman coefficient
+:math:`\mu_B/E_u` put into a symbolic Hamiltonian (:func:`zeeman_constant`) is an exact number
+and the derivation stays exact; the float constants are the same numbers rounded once.
+
+Imports: math, fractions and :mod:`symresp.errors` only.
 """
 
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 from numbers import Real
 
 from ..errors import InputError
@@ -33,8 +39,22 @@ __all__ = [
     "PLANCK", "BOLTZMANN", "ELEMENTARY_CHARGE", "SPEED_OF_LIGHT", "AVOGADRO", "BOHR_MAGNETON",
     "VACUUM_PERMEABILITY", "ENERGY_UNITS", "energy_in_joule", "energy_factor",
     "convert_energy", "molar_susceptibility", "molar_susceptibility_times_temperature",
-    "curie_constant",
+    "curie_constant", "EXACT", "TEMPERATURE_UNITS", "energy_in_joule_exact", "zeeman_constant",
+    "temperature_factor", "energy_unit_name", "temperature_unit_name",
 ]
+
+#: The CODATA 2018 values below as exact rationals of their quoted digits. Source: CODATA 2018
+#: (h, k_B, e, c, N_A exact since the 2019 SI revision; mu_B = 9.2740100783(28)e-24 J/T and
+#: mu_0 = 1.25663706212(19)e-6 N/A^2 measured, their quoted central values).
+EXACT: dict[str, Fraction] = {
+    "h": Fraction(662607015, 10**42),
+    "k_B": Fraction(1380649, 10**29),
+    "e": Fraction(1602176634, 10**28),
+    "c": Fraction(299792458),
+    "N_A": Fraction(602214076 * 10**15),
+    "mu_B": Fraction(92740100783, 10**34),
+    "mu_0": Fraction(125663706212, 10**17),
+}
 
 #: Planck constant h in J s. Source: CODATA 2018 (exact).
 PLANCK = 6.62607015e-34
@@ -61,6 +81,18 @@ ENERGY_UNITS: dict[str, float] = {
     "THz": PLANCK * 1e12,                             # h * 1 THz
 }
 _ALIASES = {"cm-1": "cm^-1", "1/cm": "cm^-1", "kelvin": "K", "joule": "J"}
+#: One unit of each supported energy scale in joules, exactly (same keys as ENERGY_UNITS).
+_ENERGY_EXACT: dict[str, Fraction] = {
+    "J": Fraction(1),
+    "K": EXACT["k_B"],
+    "meV": EXACT["e"] / 1000,
+    "cm^-1": EXACT["h"] * EXACT["c"] * 100,
+    "GHz": EXACT["h"] * 10**9,
+    "THz": EXACT["h"] * 10**12,
+}
+#: Units a temperature may be given in: kelvin, millikelvin, or any energy unit (k_B T).
+TEMPERATURE_UNITS: dict[str, Fraction] = {"K": EXACT["k_B"], "mK": EXACT["k_B"] / 1000,
+                                          **{u: v for u, v in _ENERGY_EXACT.items() if u != "K"}}
 #: SI molar susceptibility per cgs-emu one: chi_SI [m^3/mol] = 4 pi 1e-6 chi_cgs [cm^3/mol].
 _SI_PER_CGS = 4e-6 * math.pi
 _SYSTEMS = ("cgs", "SI")
@@ -294,3 +326,93 @@ def curie_constant(spin: float, *, g: float, system: str = "cgs") -> float:
     """
     S = _positive("spin", spin)
     return molar_susceptibility(S * (S + 1) / 3.0, g=g, energy_unit="K", system=system)
+
+
+def energy_unit_name(unit: object, *, name: str = "energy_unit") -> str:
+    """The canonical spelling of an energy unit (``"cm-1"`` -> ``"cm^-1"``); InputError otherwise.
+
+    Examples
+    --------
+    >>> from symresp.emit import energy_unit_name
+    >>> energy_unit_name("1/cm")
+    'cm^-1'
+    """
+    return _unit(name, unit)
+
+
+def temperature_unit_name(unit: object, *, name: str = "temperature_unit") -> str:
+    """The canonical spelling of a temperature unit (``"K"``, ``"mK"`` or an energy unit).
+
+    Examples
+    --------
+    >>> from symresp.emit import temperature_unit_name
+    >>> temperature_unit_name("kelvin")
+    'K'
+    """
+    canon = _ALIASES.get(unit, unit) if isinstance(unit, str) else unit
+    if not isinstance(canon, str) or canon not in TEMPERATURE_UNITS:
+        known = ", ".join(TEMPERATURE_UNITS)
+        raise InputError(f"{name}={unit!r} is not a temperature unit (use one of {known})")
+    return canon
+
+
+def energy_in_joule_exact(unit: str) -> Fraction:
+    """One ``unit`` of energy in joules as an exact rational of the CODATA 2018 digits.
+
+    Examples
+    --------
+    >>> from symresp.emit import energy_in_joule_exact
+    >>> energy_in_joule_exact("K")
+    Fraction(1380649, 100000000000000000000000000000)
+    """
+    return _ENERGY_EXACT[_unit("unit", unit)]
+
+
+def zeeman_constant(energy_unit: str) -> Fraction:
+    r"""The Bohr magneton per tesla in ``energy_unit``, :math:`\mu_B/E_u`, as an exact rational.
+
+    This is the coefficient of :math:`B\,g\,S` in a Hamiltonian written in ``energy_unit``
+    with the field in tesla (CODATA 2018 digits, exact arithmetic).
+
+    Parameters
+    ----------
+    energy_unit : {"J", "K", "meV", "cm^-1", "GHz", "THz"}
+
+    Returns
+    -------
+    fractions.Fraction
+
+    Raises
+    ------
+    InputError
+        For an unknown unit.
+
+    Examples
+    --------
+    :math:`\mu_B/k_B = 0.67171` K/T and :math:`\mu_B/h = 13.996` GHz/T (CODATA 2018):
+
+    >>> from symresp.emit import zeeman_constant
+    >>> round(float(zeeman_constant("K")), 5), round(float(zeeman_constant("GHz")), 3)
+    (0.67171, 13.996)
+
+    See Also
+    --------
+    energy_in_joule_exact
+    """
+    return EXACT["mu_B"] / energy_in_joule_exact(energy_unit)
+
+
+def temperature_factor(temperature_unit: str, energy_unit: str) -> float:
+    r"""Multiply a temperature in ``temperature_unit`` by this number to get :math:`k_B T` in
+    ``energy_unit`` (the temperature the evaluators take, :math:`k_B = 1`).
+
+    Examples
+    --------
+    >>> from symresp.emit import temperature_factor
+    >>> round(temperature_factor("K", "cm^-1"), 6)        # 1 K is 0.695035 cm^-1
+    0.695035
+    >>> temperature_factor("K", "K")
+    1.0
+    """
+    t_unit = temperature_unit_name(temperature_unit)
+    return float(TEMPERATURE_UNITS[t_unit] / energy_in_joule_exact(energy_unit))
