@@ -18,7 +18,7 @@ import sympy as sp
 from . import numeric
 from ._public import public
 from .algebra import Operator, Site, describe, to_array, to_sympy_matrix
-from .cases import find_case, read_case
+from .cases import find_case, read_case, with_values
 from .checks import Report, Verdict, compare, consistency
 from .emit import latex_document, numpy_functions, numpy_module_source
 from .conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
@@ -611,10 +611,13 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
 
 
 @public
-def load_case(path: object) -> Model:
+def load_case(path: object, *, params: Mapping | None = None) -> Model:
     """Load a case file (a path, or the name of a bundled case) as a :class:`Model`.
 
     The model carries the case's named observables, so ``model.response("M")`` works.
+    ``params={"h": 0}`` fixes parameters at exact values (numbers, or text such as ``"3/2"``;
+    decimals are read exactly), as ``--set h=0`` does on the command line: the model then has
+    the number in place of the name.
 
     Examples
     --------
@@ -622,5 +625,10 @@ def load_case(path: object) -> Model:
     >>> m = sr.load_case("dimer")
     >>> m.dimension, sorted(m.observables)
     (4, ['M'])
+    >>> sr.load_case("dimer", params={"h": 0}).parameters
+    (J,)
     """
-    return Model._from_system(read_case(find_case(path)).system)
+    if params is not None and not isinstance(params, Mapping):
+        raise InputError(f"load_case: params={params!r} must be a mapping {{name: value}}")
+    return Model._from_system(with_values(read_case(find_case(path)), params,
+                                          option="params").system)

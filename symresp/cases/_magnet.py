@@ -24,7 +24,7 @@ import sympy as sp
 
 from ..algebra import Operator, Site, SpinSite
 from ..emit import (SYSTEMS, GTensor, energy_unit_name, field_direction, g_tensor,
-                    temperature_unit_name, zeeman)
+                    temperature_unit_name, zeeman, zeeman_constant)
 from ..errors import InputError
 from ..text import ParseError, parse_scalar
 
@@ -59,6 +59,22 @@ class ZeemanSpec:
         return ZeemanSpec(tuple((s, g.subs(mapping)) for s, g in self.g),
                           sp.sympify(self.field).subs(mapping), self.direction,  # safe: sympy object
                           self.term.subs(mapping))
+
+    def describe(self, energy_unit: str) -> str:
+        """One line: the term, the g of each site, the field and the exact Zeeman constant."""
+        def g_text(g: GTensor) -> str:
+            m = g.matrix
+            if g.kind == "isotropic":
+                return sp.sstr(m[0][0])
+            if g.kind == "axial":
+                return f"(par {sp.sstr(m[2][2])}, perp {sp.sstr(m[0][0])})"
+            return "[" + "; ".join(", ".join(sp.sstr(e) for e in row) for row in m) + "]"
+        c = zeeman_constant(energy_unit)
+        gs = ", ".join(f"{site.name}: {g_text(g)}" for site, g in self.g)
+        n = ", ".join(sp.sstr(x) for x in self.direction)
+        return (f"+ mu_B B n.g.S with g {gs}; B = {sp.sstr(self.field)} T along n = ({n}); "
+                f"mu_B = {float(c):.11g} {energy_unit}/T = {c.numerator}/{c.denominator} "
+                f"(CODATA 2018)")
 
     @property
     def free_symbols(self) -> set[sp.Symbol]:

@@ -145,6 +145,8 @@ def describe_case(case: Case) -> list[str]:
     lines.append(f"  sites:       {sites}; dimension {case.system.basis().dimension}")
     lines.append(f"  parameters:  {_param_line(case)}")
     lines.append(f"  H          = {' '.join(case.hamiltonian_text.split())}")
+    if case.magnetism is not None and case.magnetism.zeeman is not None:
+        lines.append(f"               {case.magnetism.zeeman.describe(case.energy_unit)}")
     for text, v in case.sector_text:
         lines.append(f"  sector:      {' '.join(text.split())} = {v}")
     for name, text in case.observables_text:

@@ -33,6 +33,7 @@ from ..models import Budget
 from ..response import Derivation
 from ..text import ParseError
 from ._fit import add_fit_parser
+from ._resonance import add_resonance_parser
 from ._format import derivation_json, describe_case, describe_derivation, verification_table
 from ._plot import HAVE_MATPLOTLIB, write_plots
 
@@ -229,6 +230,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(run=_cmd_emit)
 
     add_fit_parser(sub, common, _positive_float)
+    add_resonance_parser(sub, common, _positive_float)
     return parser
 
 

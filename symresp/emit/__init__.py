@@ -10,7 +10,7 @@ Public surface:
 * the Zeeman term from g tensors and a field in tesla, magnetic moments and orientation
   quadratures (:mod:`._magnet`); molar magnetometry and its corrections
   (:mod:`._magnetometry`); magnetisation from the closed-form levels
-  (:mod:`._levelfunctions`).
+  (:mod:`._levelfunctions`); resonance (ESR) fields at a fixed frequency (:mod:`._resonance`).
 
 Imports the layers below it (response, spectrum, conventions, errors); nothing below imports it.
 """
@@ -22,6 +22,7 @@ from ._magnet import (AXES, GTensor, Quadrature, field_direction, g_tensor, magn
 from ._magnetometry import (SYSTEMS, Corrections, brillouin, effective_moment, molar_factor,
                             moment_factor, powder_average)
 from ._numpy_module import compile_module, numpy_functions, numpy_module_source, symresp_version
+from ._resonance import DEFAULT_FREQUENCY_GHZ, DEFAULT_MAX_FIELD, Resonance, resonance_fields
 from ._units import (AVOGADRO, BOHR_MAGNETON, BOLTZMANN, ELEMENTARY_CHARGE, ENERGY_UNITS, EXACT,
                      PLANCK, SPEED_OF_LIGHT, TEMPERATURE_UNITS, VACUUM_PERMEABILITY,
                      convert_energy, curie_constant, energy_factor, energy_in_joule,
@@ -43,4 +44,5 @@ __all__ = [
     "molar_factor", "moment_factor", "effective_moment", "brillouin", "Corrections",
     "powder_average", "SYSTEMS",
     "LevelFunctions", "level_functions", "evaluator_parameters",
+    "Resonance", "resonance_fields", "DEFAULT_FREQUENCY_GHZ", "DEFAULT_MAX_FIELD",
 ]

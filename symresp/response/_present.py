@@ -31,6 +31,9 @@ import sympy as sp
 
 __all__ = ["boltzmann_form", "merge_exponentials", "hyperbolic_ratio"]
 
+#: Largest power of a Boltzmann variable u in a presented polynomial.
+_MAX_POWER = 10**4
+
 
 def _generators(expr: sp.Expr):
     """(generators, monomials): generator g -> (u, s, decaying), with exp(c g) = u**(c/s), and
@@ -64,6 +67,15 @@ def _generators(expr: sp.Expr):
     gens = {}
     for k, g in enumerate(basis):
         L = reduce(sp.ilcm, [sp.Rational(t[k]).q for t in coords.values()], 1)
+        if L > _MAX_POWER:
+            # Exact physical constants (a Zeeman coefficient mu_B/E_u) give coordinates with
+            # huge denominators; the generator then absorbs their rational gcd, so that the
+            # powers of u stay small instead of reaching 10^16.
+            ts = [sp.Rational(t[k]) for t in coords.values() if t[k] != 0]
+            gcd = sp.Rational(reduce(sp.igcd, [t.p for t in ts], 0), L)
+            if any(abs(t / gcd) > _MAX_POWER for t in ts):
+                return None
+            L = 1 / gcd
         decaying = bool(g.is_positive)
         # Oriented so that the variable is a decaying Boltzmann factor at a generic point.
         value = sp.N(g.subs(point))
