@@ -102,7 +102,9 @@ class Verdict:
         ``"T-beta"``, ``"isolated-for-isothermal"``, ``"isothermal-for-isolated"``,
         ``"advanced"``, ``"omega-reversed"``, ``"t-reversed"``, ``"partition-missing"``,
         ``"partition-extra"``, ``"partition-level-missing"``, ``"partition-degeneracy"``,
-        ``"partition-constant"``, ``"partition-extra-term"``, ``"energy-zero"``, ``"coupling"``, ``"level-energy"``, ``"rounded"``, ``"partial"``).
+        ``"partition-constant"``, ``"partition-extra-term"``, ``"energy-zero"``, ``"coupling"``,
+        ``"mean-product-missing"``, ``"multiplet-energy"``, ``"level-energy"``, ``"rounded"``,
+        ``"partial"``).
     quantity : str
         The quantity compared.
 
@@ -843,6 +845,137 @@ def _solve_level(c: _Comparison, a: int, fit: list[_Sample]) -> mp.mpf | None:
     return None
 
 
+def _mean_product(c: _Comparison, s: _Sample) -> mp.mpc | None:
+    r""":math:`s\beta\langle A\rangle\langle B\rangle` at a sample (the term the isothermal
+    susceptibility subtracts)."""
+    try:
+        data = c.data(s.params)
+    except (ZeroDivisionError, ValueError, InputError):
+        return None
+    b = to_mp(s.beta).real
+    with mp.workprec(PREC_BITS):
+        x = data.boltzmann(b)
+        zr = mp.fsum(d * xa for d, xa in zip(data.degeneracies, x))
+        mA = mp.fsum(x[a] * v for a, v in data.expect_A) / zr
+        mB = mp.fsum(x[a] * v for a, v in data.expect_B) / zr
+        return mp.mpc(data.sign * b * mA * mB)
+
+
+def _slip_mean_product(c: _Comparison) -> Slip | None:
+    r"""The isothermal susceptibility without its :math:`-\beta\langle A\rangle\langle B\rangle`
+    term: invisible in zero field (where :math:`\langle A\rangle = 0` by symmetry), wrong in a
+    field."""
+    if c.quantity != "isothermal":
+        return None
+    terms = [_mean_product(c, s) for s in c.samples]
+    if any(t is None for t in terms) or all(t == 0 for t in terms):
+        return None
+    if not c.matches([v + t for v, t in zip(c.ours, terms)]):
+        return None
+    mean_a = sp.sstr(sp.factor(c.d.expectation("A")))
+    return ("mean-product-missing",
+            f"missing -beta*<A>*<B>: your expression is beta*(<AB> + ...) without subtracting "
+            f"beta*<A>*<B>; it vanishes only where <A> = 0 (zero field), here <A> = {mean_a}")
+
+
+def _multiplets(c: _Comparison) -> list[tuple[int, ...]]:
+    """Groups of levels that form one multiplet: the same quantum numbers apart from the
+    magnetic one (Sz), or levels that coincide when one parameter (a field) is zero."""
+    levels = c.d.levels
+    groups: list[tuple[int, ...]] = []
+    by_label: dict[tuple, list[int]] = {}
+    for k, lv in enumerate(levels):
+        keys = {tuple(sorted((n, v) for n, v in lab if n != "Sz")) for lab in lv.quantum_numbers}
+        if len(keys) == 1 and next(iter(keys)):
+            by_label.setdefault(next(iter(keys)), []).append(k)
+    groups += [tuple(v) for v in by_label.values()]
+    for p in c.params:
+        by_zero: dict[sp.Expr, list[int]] = {}
+        for k, lv in enumerate(levels):
+            if lv.implicit or p not in lv.energy.free_symbols:
+                continue
+            by_zero.setdefault(sp.expand(lv.energy.subs(p, 0)), []).append(k)
+        groups += [tuple(v) for v in by_zero.values()]
+    out = []
+    for g in groups:
+        if 2 <= len(g) < len(levels) and g not in out:
+            out.append(g)
+    return out
+
+
+def _solve_shift(c: _Comparison, group: tuple[int, ...], fit: list[_Sample]) -> mp.mpf | None:
+    """Common shift of the levels of ``group`` that makes ours reproduce the formula at every
+    sample of ``fit`` (None if there is none)."""
+    data = c.data(fit[0].params)
+    E = list(data.energies)
+    th = [c.eval_theirs(s) for s in fit]
+    if any(v is None for v in th):
+        return None
+    spread = max(abs(e) for e in E) + 1
+
+    def shifted(delta, s):
+        energies = [e + delta if k in group else e for k, e in enumerate(E)]
+        return c.eval_ours(s, energies=energies)
+
+    def f(delta):
+        v = shifted(delta, fit[0])
+        if v is None:
+            return mp.mpf(1e30)
+        diff = v - th[0]
+        return diff.real + diff.imag
+
+    sc = max([abs(v) for v in th] + [mp.mpf(1e-30)])
+    for step in (0.5, -0.5, 1, -1, 2, -2, 4, -4):
+        try:
+            delta = mp.findroot(f, step * spread, verify=False)
+        except (ValueError, ZeroDivisionError):
+            continue
+        delta = mp.mpf(delta.real) if isinstance(delta, mp.mpc) else delta
+        if abs(delta) < 1e-10 * spread:
+            continue
+        vals = [shifted(delta, s) for s in fit]
+        if all(v is not None and c.close(v, w, sc) for v, w in zip(vals, th)):
+            return delta
+    return None
+
+
+def _slip_multiplet_energy(c: _Comparison) -> Slip | None:
+    """A whole multiplet (all its Zeeman components) placed at a wrong energy."""
+    L = len(c.d.levels)
+    if L < 3 or L > MAX_FIT_LEVELS:
+        return None
+    fit = _fit_samples(c, 4)
+    for group in _multiplets(c):
+        delta = _solve_shift(c, group, fit)
+        if delta is None:
+            continue
+        found = [(fit[0].params, delta)]
+        for _ in range(len(c.params) + 1):
+            params = draw_parameters(c.rng, c.params)
+            more = [_Sample(-1, params, s.beta, s.x, s.y, s.t) for s in fit]
+            d2 = _solve_shift(c, group, more)
+            if d2 is None:
+                break
+            found.append((params, d2))
+        shift = _identify(c, found)
+        lv = c.d.levels
+        energies = ", ".join(sp.sstr(lv[k].energy) for k in group)
+        labels = {tuple((n, v) for n, v in lab if n != "Sz") for k in group
+                  for lab in lv[k].quantum_numbers}
+        name = ""
+        if len(labels) == 1 and next(iter(labels)):
+            name = " " + ", ".join(f"{n}={v}" for n, v in next(iter(labels)))
+        rest = [k for k in range(L) if k not in group]
+        also = ""
+        if len(rest) == 1:
+            also = (f"; equivalently the level E = {sp.sstr(lv[rest[0]].energy)} moved the "
+                    f"other way (only differences of levels enter)")
+        return "multiplet-energy", (f"wrong multiplet energy: your expression matches ours with "
+                                    f"the whole multiplet{name} ({len(group)} levels, E = "
+                                    f"{energies}) shifted by {shift}{also}")
+    return None
+
+
 def _slip_level_energy(c: _Comparison) -> Slip | None:
     L = len(c.d.levels)
     if L < 2 or L > MAX_FIT_LEVELS:
@@ -935,8 +1068,9 @@ def _slip_partial(c: _Comparison) -> Slip | None:
 
 #: Slips in the order they are tested; the first that reproduces the formula is reported.
 _SLIPS: tuple[Callable[[_Comparison], Slip | None], ...] = (
-    _slip_factor, _slip_temperature, _slip_static_kind, _slip_prescription, _slip_partition,
-    _slip_coupling, _slip_partition_fit, _slip_level_energy, _slip_rounded, _slip_partial,
+    _slip_factor, _slip_temperature, _slip_static_kind, _slip_mean_product, _slip_prescription,
+    _slip_partition, _slip_coupling, _slip_multiplet_energy, _slip_partition_fit,
+    _slip_level_energy, _slip_rounded, _slip_partial,
 )
 
 
@@ -979,12 +1113,16 @@ def compare(derivation: Derivation, formula: object, quantity: Quantity = "isoth
     Notes
     -----
     Slips tested, in order: overall sign and factors 2, 1/2, 4, 1/4 (also negative); T and
-    beta swapped; isolated given for isothermal and the reverse; advanced instead of retarded
+    beta swapped; isolated given for isothermal and the reverse; the isothermal susceptibility
+    without its :math:`-\beta\langle A\rangle\langle B\rangle` term (wrong in a field); advanced
+    instead of retarded
     (:math:`\omega - i0^+`, or :math:`\omega \to -\omega`), t -> -t; a missing or extra
     partition function, or a shifted energy zero; a coupling convention
     (:math:`p \to 2p, p/2, -p, -2p, -p/2` for each parameter); a wrong partition function (a
     missing level or a wrong degeneracy, by an exact fit of
-    :math:`Z'_{\rm yours} = Z' + \sum_a \delta_a e^{-\beta(E_a - E_0)}`); one wrong level energy
+    :math:`Z'_{\rm yours} = Z' + \sum_a \delta_a e^{-\beta(E_a - E_0)}`); a whole multiplet (the
+    levels of one total spin, or those that meet at zero field) shifted by a common energy; one
+    wrong level energy
     (by a root search for the energy that reproduces the formula); rounded constants.
 
     Examples
