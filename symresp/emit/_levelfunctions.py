@@ -55,7 +55,7 @@ def evaluator_parameters(derivation: Derivation) -> tuple[tuple[sp.Symbol, str],
     >>> import sympy as sp, symresp as sr
     >>> from symresp.emit import evaluator_parameters
     >>> J, h = sp.symbols("J h", real=True)
-    >>> a = sr.spin("a", sr.Rational(1, 2))
+    >>> a = sr.spin("a", sp.Rational(1, 2))
     >>> d = sr.Model(h * a.z).response(a.z).derivation
     >>> evaluator_parameters(d)
     ((h, 'h'),)
@@ -234,7 +234,7 @@ def level_functions(derivation: Derivation, parameters: Sequence[sp.Symbol],
     >>> import math, sympy as sp, symresp as sr
     >>> from symresp.emit import level_functions, zeeman_constant
     >>> F = sp.Symbol("F", real=True)
-    >>> s = sr.spin("s", sr.Rational(1, 2))
+    >>> s = sr.spin("s", sp.Rational(1, 2))
     >>> d = sr.Model(sr.zeeman({s: 2}, F)).response(s.z).derivation
     >>> c = float(zeeman_constant("K"))
     >>> lf = level_functions(d, [], [F], c)

@@ -223,7 +223,7 @@ def zeeman(g_by_site: Mapping, field: object, *, direction: object = "z",
     A spin 1/2 with g = 2 at 1 T, energies in kelvin: levels at :math:`\pm\mu_B B/k_B`.
 
     >>> import sympy as sp, symresp as sr
-    >>> s = sr.spin("s", sr.Rational(1, 2))
+    >>> s = sr.spin("s", sp.Rational(1, 2))
     >>> m = sr.Model(sr.zeeman({s: 2}, 1, energy_unit="K"))
     >>> sorted(round(float(lv.energy), 5) for lv in m.levels())
     [-0.67171, 0.67171]
@@ -261,8 +261,8 @@ def magnetic_moment(g_by_site: Mapping, *, direction: object = "z") -> Operator:
     --------
     Curie law of a spin 1/2 with g = 2: :math:`\chi = g^2\beta/4 = \beta`.
 
-    >>> import symresp as sr
-    >>> s = sr.spin("s", sr.Rational(1, 2))
+    >>> import sympy as sp, symresp as sr
+    >>> s = sr.spin("s", sp.Rational(1, 2))
     >>> sr.Model(0 * s.z).response(sr.magnetic_moment({s: 2})).static("isothermal")
     beta
 

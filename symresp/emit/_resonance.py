@@ -162,9 +162,9 @@ def resonance_fields(hamiltonian: object, g_by_site: Mapping, *,
     --------
     A free spin 1/2 with g = 2.0023 at 9.4 GHz resonates at :math:`h\nu/(g\mu_B)` = 0.3354 T:
 
-    >>> import symresp as sr
+    >>> import sympy as sp, symresp as sr
     >>> from symresp.emit import resonance_fields
-    >>> s = sr.spin("s", sr.Rational(1, 2))
+    >>> s = sr.spin("s", sp.Rational(1, 2))
     >>> (line,) = resonance_fields(0 * s.z, {s: 2.0023}, temperature=4.0)
     >>> round(line.field, 4), line.method
     (0.3354, 'exact')

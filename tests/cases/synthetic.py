@@ -10,7 +10,7 @@ The demo data of cases/dinuclear_chiT.csv are made by::
 
     python -m tests.cases.synthetic
 
-(an invented compound, the dinuclear complex NX-31; see docs/fitting.md).
+(an invented compound, the dinuclear complex Vennadrel; see docs/fitting.md).
 """
 
 from __future__ import annotations
@@ -23,8 +23,8 @@ import scipy.constants as C
 from symresp import numeric
 from tests.numeric._kron import embed, spin_matrices
 
-#: Invented "true" values of the demo compound NX-31 (J in cm^-1).
-NX31 = {"J": 112.4, "g": 2.093, "rho": 0.015, "tip": 1.2e-4}
+#: Invented "true" values of the demo compound Vennadrel (J in cm^-1).
+VENNADREL = {"J": 112.4, "g": 2.093, "rho": 0.015, "tip": 1.2e-4}
 #: Noise of the demo data: sigma_i = NOISE_REL * chiT_i + NOISE_ABS (cm^3 K/mol), seed SEED.
 NOISE_REL = 0.004
 NOISE_ABS = 4e-4
@@ -69,7 +69,7 @@ def dimer_chi_mol(J_cm: float, g: float, T: np.ndarray) -> np.ndarray:
     return np.array(out)
 
 
-def nx31_chiT(T: np.ndarray, J: float, g: float, rho: float, tip: float) -> np.ndarray:
+def vennadrel_chiT(T: np.ndarray, J: float, g: float, rho: float, tip: float) -> np.ndarray:
     """chi*T of the demo compound: (1 - rho) chi_dimer + rho * Curie(S = 1/2, g) + TIP, times T."""
     chi = (1 - rho) * dimer_chi_mol(J, g, T) + rho * curie_per_kelvin() * g * g * 0.75 / (3 * T) + tip
     return chi * T
@@ -78,7 +78,7 @@ def nx31_chiT(T: np.ndarray, J: float, g: float, rho: float, tip: float) -> np.n
 def demo_table(seed: int = SEED) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(T, chiT with noise, sigma) of the demo data."""
     T = DEMO_T
-    clean = nx31_chiT(T, **NX31)
+    clean = vennadrel_chiT(T, **VENNADREL)
     sigma = NOISE_REL * clean + NOISE_ABS
     rng = np.random.default_rng(seed)
     return T, clean + sigma * rng.standard_normal(T.size), sigma
@@ -86,10 +86,10 @@ def demo_table(seed: int = SEED) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 def demo_text() -> str:
     T, y, s = demo_table()
-    lines = ["# Invented magnetometry data of the dinuclear complex NX-31 (cases/dinuclear.toml).",
+    lines = ["# Invented magnetometry data of the dinuclear complex Vennadrel (cases/dinuclear.toml).",
              "# Simulated with symresp's numerical reference (exact diagonalisation) for",
-             f"# J = {NX31['J']} cm^-1, g = {NX31['g']}, impurity fraction {NX31['rho']} (S = 1/2), "
-             f"TIP = {NX31['tip']} cm^3/mol,",
+             f"# J = {VENNADREL['J']} cm^-1, g = {VENNADREL['g']}, impurity fraction "
+             f"{VENNADREL['rho']} (S = 1/2), TIP = {VENNADREL['tip']} cm^3/mol,",
              f"# plus Gaussian noise of standard deviation sigma = {NOISE_REL} chiT + {NOISE_ABS} "
              f"(seed {SEED}).",
              "# Regenerate: python -m tests.cases.synthetic",
