@@ -40,8 +40,7 @@ import sympy as sp
 from ..algebra import Operator, SpinSite, to_array
 from ..emit import (AXES, TEMPERATURE_UNITS, Corrections, GTensor, evaluator_parameters,
                     level_functions, magnetic_moment, molar_factor, moment_factor,
-                    numpy_functions, orientation_quadrature, temperature_factor, zeeman,
-                    zeeman_constant)
+                    numpy_functions, orientation_quadrature, temperature_factor, zeeman_constant)
 from ..emit import EXACT
 from ..errors import InputError
 from ..models import Budget, System
@@ -191,14 +190,6 @@ def _spin_handles(case: Case) -> dict[SpinSite, GTensor]:
 
 def _float_direction(d: Sequence[sp.Expr]) -> tuple[float, float, float]:
     return tuple(float(x) for x in d)  # type: ignore[return-value]
-
-
-def _zeeman_along(handles, field: sp.Expr, direction: Sequence[sp.Expr], unit: str) -> Operator:
-    total = Operator((), frozenset(h.site for h in handles))
-    for c, axis in zip(direction, ("x", "y", "z")):
-        if c != 0:
-            total = total + zeeman(handles, field * c, direction=axis, energy_unit=unit)
-    return total
 
 
 def _moment_along(handles, direction: Sequence[sp.Expr]) -> Operator:
@@ -357,15 +348,18 @@ class MagnetometryModel:
             basis = [tuple(map(sp.Integer, AXES["x"])), tuple(map(sp.Integer, AXES["z"]))]
         else:
             basis = [tuple(map(sp.Integer, AXES[a])) for a in ("x", "y", "z")]
+        # The field components enter in energy units, F_k = (mu_B/E_u) B_k: the same
+        # Hamiltonian as the Zeeman term, without the large exact rational mu_B/E_u in the
+        # symbolic work (it is applied to the numbers, F = c B, at evaluation).
         fields = [sp.Symbol(f"_F{k}", real=True) for k in range(len(basis))]
         H = self.H0
         for F, e in zip(fields, basis):
-            H = H + _zeeman_along(self.handles, F, e, self.unit)
+            H = H - F * _moment_along(self.handles, e)
         system = System.build(H, extra_sites=self.sites, name=self.case.name)
         zero = Operator((), frozenset())
         self.progress(f"deriving the levels in a field with {len(fields)} component(s)")
         d = derive(system, zero, zero, budget=budget)
-        self.levels = level_functions(d, self.model_symbols, fields, self.c)
+        self.levels = level_functions(d, self.model_symbols, fields, 1.0)
         self.basis = [_float_direction(e) for e in basis]
 
     # ------------------------------------------------------------ evaluation
@@ -469,7 +463,7 @@ class MagnetometryModel:
             dirs, weights = [tuple(d) for d in self.quadrature.directions], list(self.quadrature.weights)
         for n, w in zip(dirs, weights):
             self.clock.check("the fit", "the orientation average")
-            m, dm, _ = self.levels.magnetisation(TE, params, B, n, self.basis)
+            m, dm, _ = self.levels.magnetisation(TE, params, B * self.c, n, self.basis)
             M += w * m
             dM += w * dm
         jac = np.zeros(TE.shape + (P,))

@@ -965,11 +965,18 @@ def _slip_multiplet_energy(c: _Comparison) -> Slip | None:
         name = ""
         if len(labels) == 1 and next(iter(labels)):
             name = " " + ", ".join(f"{n}={v}" for n, v in next(iter(labels)))
-        rest = [k for k in range(L) if k not in group]
+        rest = tuple(k for k in range(L) if k not in group)
         also = ""
         if len(rest) == 1:
             also = (f"; equivalently the level E = {sp.sstr(lv[rest[0]].energy)} moved the "
                     f"other way (only differences of levels enter)")
+        elif rest in _multiplets(c):
+            other = {tuple((n, v) for n, v in lab if n != "Sz") for k in rest
+                     for lab in lv[k].quantum_numbers}
+            oname = (" " + ", ".join(f"{n}={v}" for n, v in next(iter(other)))
+                     if len(other) == 1 and next(iter(other)) else "")
+            also = (f"; equivalently the other multiplet{oname} moved the other way (only "
+                    f"differences of levels enter)")
         return "multiplet-energy", (f"wrong multiplet energy: your expression matches ours with "
                                     f"the whole multiplet{name} ({len(group)} levels, E = "
                                     f"{energies}) shifted by {shift}{also}")

@@ -40,8 +40,9 @@ from ..errors import InputError
 from ..models import Budget, System
 from ..response import derive
 from ..spectrum import LevelRoot
-from ._magnet import field_direction, magnetic_moment, zeeman
-from ._units import EXACT, TEMPERATURE_UNITS, energy_in_joule_exact, temperature_unit_name
+from ._magnet import field_direction, magnetic_moment
+from ._units import (EXACT, TEMPERATURE_UNITS, energy_in_joule_exact, temperature_unit_name,
+                     zeeman_constant)
 
 __all__ = ["Resonance", "resonance_fields", "DEFAULT_FREQUENCY_GHZ", "DEFAULT_MAX_FIELD"]
 
@@ -112,6 +113,8 @@ def _along(handles, direction, build) -> Operator:
 def _exact_number(value: object, where: str) -> sp.Rational:
     if isinstance(value, bool) or not isinstance(value, (int, float, Fraction, sp.Rational)):
         raise InputError(f"{where}={value!r} must be a positive number")
+    if isinstance(value, float) and not np.isfinite(value):
+        raise InputError(f"{where}={value!r} must be a positive finite number")
     q = sp.Rational(repr(value)) if isinstance(value, float) else sp.Rational(value)
     if not q > 0 or not np.isfinite(float(q)):
         raise InputError(f"{where}={value!r} must be a positive finite number")
@@ -190,11 +193,14 @@ def resonance_fields(hamiltonian: object, g_by_site: Mapping, *,
     handles = {site: g for site, g in g_by_site.items()} if isinstance(g_by_site, Mapping) else None
     if not handles or any(not isinstance(s, SpinSite) for s in handles):
         raise InputError("resonance_fields: g_by_site must map spin sites to their g")
-    Bsym = sp.Symbol("B_res", nonnegative=True)
-    Hz = _along(handles, n,
-                lambda c, axis: zeeman(handles, Bsym * c, direction=axis, energy_unit=energy_unit))
+    # The field enters in energy units, F = (mu_B/E_u) B: the Zeeman term without the large
+    # exact rational mu_B/E_u in the symbolic work; B = F/(mu_B/E_u) exactly at the end.
+    Bsym = sp.Symbol("F_res", nonnegative=True)
+    c = zeeman_constant(energy_unit)
+    cq = sp.Rational(c.numerator, c.denominator)
+    Hz = -Bsym * _along(handles, n, lambda k, axis: k * magnetic_moment(handles, direction=axis))
     V = _along(handles, v,
-               lambda c, axis: c * magnetic_moment(handles, direction=axis))
+               lambda k, axis: k * magnetic_moment(handles, direction=axis))
     sites = tuple(h.site for h in handles) + tuple(H0.sites)
     system = System.build(H0 + Hz, extra_sites=sites)
     d = derive(system, V, V, budget=budget)
@@ -208,12 +214,13 @@ def resonance_fields(hamiltonian: object, g_by_site: Mapping, *,
             continue
         Om = sp.sympify(tr.frequency)  # safe: sympy object of the derivation
         Wf = compile_expression(tr.matrix_weight, [Bsym], backend="numpy")
-        fields = _solve_exact(Om, Bsym, w0, Bmax)
+        Fmax = Bmax * float(c)
+        fields = _solve_exact(Om, Bsym, w0, Fmax)
         method = "exact"
         if fields is None:
             method = "numeric"
-            fields = [(b, None) for b in _solve_numeric(energies[tr.upper], energies[tr.lower],
-                                                        float(w0), Bmax)]
+            fields = [(f, None) for f in _solve_numeric(energies[tr.upper], energies[tr.lower],
+                                                        float(w0), Fmax)]
         for b, exact in fields:
             E = np.array([float(np.real(f(b))) for f in energies])
             a_, b_ = (tr.lower, tr.upper) if E[tr.lower] <= E[tr.upper] else (tr.upper, tr.lower)
@@ -225,13 +232,17 @@ def resonance_fields(hamiltonian: object, g_by_site: Mapping, *,
             h = 1e-6 * max(b, 1e-3)
             slope = (float(np.real(energies[b_](b + h) - energies[a_](b + h)))
                      - float(np.real(energies[b_](b - h) - energies[a_](b - h)))) / (2 * h)
-            out.append(Resonance(float(b), exact, a_, b_, (float(E[a_]), float(E[b_])), W,
-                                 float(p[a_] - p[b_]), float((p[a_] - p[b_]) * W), slope, method))
+            field = float(b) / float(c)
+            exact_B = None if exact is None else sp.nsimplify(exact / cq) if exact.is_Rational \
+                else exact / cq
+            out.append(Resonance(field, exact_B, a_, b_, (float(E[a_]), float(E[b_])), W,
+                                 float(p[a_] - p[b_]), float((p[a_] - p[b_]) * W),
+                                 slope * float(c), method))
     return tuple(sorted(out, key=lambda r: (r.field, r.lower, r.upper)))
 
 
 def _solve_exact(Om: sp.Expr, B: sp.Symbol, w0: sp.Rational, Bmax: float):
-    """Exact roots of |Om(B)| = w0 in (0, Bmax], or None when the spacing is implicit or sympy
+    """Exact roots of |Om(B)| = w0 in (0, Bmax] (B in the unit of the symbol), or None when the spacing is implicit or sympy
     gives no closed solution."""
     if Om.has(LevelRoot, sp.CRootOf):
         return None

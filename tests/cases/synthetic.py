@@ -52,14 +52,15 @@ def spin_ops(spins):
     return [[embed(m[k], i, dims) for k in range(3)] for i, m in enumerate(mats)]
 
 
-def dimer_chi_mol(J_cm: float, g: float, T: np.ndarray) -> np.ndarray:
-    """Molar susceptibility (cm^3/mol) of H = J S_a.S_b, isotropic g, by exact diagonalisation.
+def dimer_chi_mol(J: float, g: float, T: np.ndarray, unit: str = "cm^-1") -> np.ndarray:
+    """Molar susceptibility (cm^3/mol) of H = J S_a.S_b (J in ``unit``, "cm^-1" or "K"),
+    isotropic g, at temperatures T (K), by exact diagonalisation.
 
-    chi_mol = N_A mu_B^2 g^2 chi_SzSz / (k_B T-units), chi_SzSz from numeric.static_isothermal
-    with energies in kelvin.
+    chi_mol = N_A mu_B^2 g^2 chi_SzSz / k_B, chi_SzSz from numeric.static_isothermal with
+    energies in kelvin.
     """
     ops = spin_ops((0.5, 0.5))
-    J_K = J_cm * CM / K_B
+    J_K = J * CM / K_B if unit == "cm^-1" else J
     H = J_K * sum(ops[0][k] @ ops[1][k] for k in range(3))
     Sz = ops[0][2] + ops[1][2]
     out = []
@@ -102,3 +103,24 @@ def demo_text() -> str:
 if __name__ == "__main__":
     DEMO_FILE.write_text(demo_text())
     print(DEMO_FILE)
+
+
+def ion_powder_M(D: float, g: float, T: np.ndarray, B: np.ndarray, nodes: int = 40) -> np.ndarray:
+    """Powder-averaged magnetisation (mu_B) of a spin 1 with D Sz^2 (kelvin) and isotropic g, by
+    exact diagonalisation at each field direction; the average over cos(theta) in [0, 1] by a
+    Gauss-Legendre rule of ``nodes`` points (more than the fit uses), directions in the xz plane
+    (axial symmetry)."""
+    Sx, Sy, Sz = spin_matrices(1)
+    mu_K = MU_B / K_B
+    x, w = np.polynomial.legendre.leggauss(nodes)
+    u, w = 0.5 * (x + 1), 0.5 * w
+    out = []
+    for t, b in zip(T, B):
+        total = 0.0
+        for ui, wi in zip(u, w):
+            si = np.sqrt(1 - ui * ui)
+            mu = -g * (si * Sx + ui * Sz)
+            H = D * Sz @ Sz - mu_K * b * mu
+            total += wi * numeric.expectation(H, mu, 1.0 / t).real
+        out.append(total)
+    return np.array(out)

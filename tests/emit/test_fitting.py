@@ -2,8 +2,11 @@
 
 Demo scenario (invented): the "Tandrel salt", a made-up compound of antiferromagnetically
 coupled spin-1/2 pairs, H = J S_1.S_2 with J = 14.2 K and g = 2.11. Its molar susceptibility is
-simulated on 2-300 K with 1 % Gaussian noise from a seeded generator and fitted with
-scipy.optimize.curve_fit; J and g must come back within their error bars.
+simulated on 2-300 K by the numerical reference (exact diagonalisation in symresp.numeric,
+tests/cases/synthetic.py; not the evaluator that is fitted) with 1 % Gaussian noise from a
+seeded generator and fitted with scipy.optimize.curve_fit; J and g must come back within their
+error bars. The command-line route (symresp fit) is tested in tests/cases/test_fit.py and
+tests/cli/test_fit_command.py.
 """
 
 from __future__ import annotations
@@ -15,6 +18,7 @@ from scipy.optimize import curve_fit
 
 import symresp as sr
 from symresp.emit import molar_susceptibility, numpy_functions
+from tests.cases.synthetic import dimer_chi_mol
 
 #: Invented "true" values of the demo compound.
 J_TRUE = 14.2      # K
@@ -50,7 +54,7 @@ def qx17():
 
     T = np.geomspace(2.0, 300.0, 60)
     rng = np.random.default_rng(SEED)
-    clean = model(T, J_TRUE, G_TRUE)
+    clean = dimer_chi_mol(J_TRUE, G_TRUE, T, unit="K")
     data = clean * (1 + NOISE * rng.standard_normal(T.size))
     return model, jacobian, T, data, NOISE * clean
 
