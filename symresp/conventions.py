@@ -21,6 +21,14 @@ The pinned (default) convention
 
 Other conventions in use are reachable through :class:`Convention` and are documented side by
 side in ``docs/conventions.md``; one result never mixes two of them.
+
+Magnetic quantities (``docs/conventions.md``, section 8): a spin with g tensor g carries the
+moment :math:`-\mu_B g\mathbf S`; a field :math:`B\mathbf n` in tesla adds
+:math:`H_Z = \mu_B B\,\mathbf n\cdot g\cdot\mathbf S`, so the field couples as
+:math:`f = \mu_B B` to :math:`X = -\mathbf n\cdot g\cdot\mathbf S`; the magnetisation is
+:math:`\langle X\rangle` in Bohr magnetons along the field. A mean-field coupling between
+clusters, :math:`zJ'`, has the sign of the exchange in the Hamiltonian (positive:
+antiferromagnetic): :math:`\chi = \chi_0/(1 + zJ'\chi_0/(N_A\mu_B^2 g^2))`.
 """
 
 from __future__ import annotations

@@ -11,7 +11,7 @@ coefficient :math:`\mu_B/E_u` is the exact rational of the CODATA 2018 values in
 ``energy_unit``. ``[sample]`` states what a magnetometry fit adds to the cluster model: the
 orientation average, the unit system of molar susceptibilities, temperature-independent
 paramagnetism, a diamagnetic correction, a paramagnetic impurity and a mean-field coupling.
-Format: ``docs/case-files.md``, sections 10 and 11.
+Format: ``docs/case-files.md``, sections 13 and 14.
 """
 
 from __future__ import annotations

@@ -1,7 +1,7 @@
 """The ``fit`` command: parsing, printing and the picture (layer: cli).
 
 Owns :func:`add_fit_parser`, :func:`fit_text` and :func:`fit_json`. Imports argparse, json
-and the cases layer; the picture comes from :mod:`._plot_fit`.
+and the cases layer; the picture comes from :mod:`._plot`.
 
 ``symresp fit CASE DATA --vary J,g [--set NAME=VALUE ...] [--json]``: fit the varied
 parameters of CASE to the measured table DATA (``docs/fitting.md``).
@@ -19,7 +19,7 @@ from pathlib import Path
 from ..cases import FitResult, find_case, fit_case, parse_assignments, read_case, read_data
 from ..errors import InputError
 from ..models import Budget
-from ._plot_fit import HAVE_MATPLOTLIB, write_fit_picture
+from ._plot import HAVE_MATPLOTLIB, write_fit_picture
 
 __all__ = ["add_fit_parser", "fit_text", "fit_json", "run_fit"]
 

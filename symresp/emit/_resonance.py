@@ -1,7 +1,6 @@
 r"""Resonance (ESR) fields at a fixed microwave frequency (layer: emit).
 
-Owns :class:`Resonance` and :func:`resonance_fields`. Imports numpy, scipy.optimize (bracketed
-root finding), sympy, :mod:`symresp.algebra`, :mod:`symresp.models`,
+Owns :class:`Resonance` and :func:`resonance_fields`. Imports numpy, sympy, :mod:`symresp.algebra`, :mod:`symresp.models`,
 :mod:`symresp.response`, :mod:`symresp.checks` (compiling closed forms to numpy) and the emit
 modules for units and the Zeeman term.
 
@@ -20,7 +19,7 @@ factor :math:`1/|\partial(E_b - E_a)/\partial B|`, reported as ``slope``.
 The resonance fields are exact where the level spacing is an explicit closed form: the
 equation is solved by sympy (``exact`` holds the expression, e.g. :math:`h\nu/(g\mu_B)`);
 otherwise, or when sympy finds no closed solution, the spacing is scanned on a grid and every
-bracketed root refined by Brent's method (``method = "numeric"``).
+bracketed root refined by bisection to a relative width of 1e-15 (``method = "numeric"``).
 """
 
 from __future__ import annotations
@@ -30,7 +29,6 @@ from dataclasses import dataclass
 from fractions import Fraction
 
 import numpy as np
-import scipy.optimize
 import sympy as sp
 
 from .._public import public
@@ -271,19 +269,37 @@ def _solve_exact(Om: sp.Expr, B: sp.Symbol, w0: sp.Rational, Bmax: float):
     return dedup
 
 
+def _bisect(g, lo: float, hi: float) -> float:
+    """A root of g in [lo, hi], where g changes sign, by bisection (to rounding)."""
+    glo = g(lo)
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        if mid <= lo or mid >= hi or hi - lo <= 1e-15 * max(abs(lo), abs(hi)):
+            break
+        gm = g(mid)
+        if gm == 0:
+            return mid
+        if (gm > 0) == (glo > 0):
+            lo, glo = mid, gm
+        else:
+            hi = mid
+    return 0.5 * (lo + hi)
+
+
 def _solve_numeric(Eb, Ea, w0: float, Bmax: float) -> list[float]:
-    """Roots of |Eb(B) - Ea(B)| - w0 on (0, Bmax]: sign changes on a grid, refined by Brent."""
+    """Roots of |Eb(B) - Ea(B)| - w0 on (0, Bmax]: sign changes on a grid, refined by bisection."""
     grid = np.linspace(0.0, Bmax, _SCAN_POINTS)
     f = np.abs(np.real(np.asarray(Eb(grid) - Ea(grid), dtype=complex))) - w0
+
+    def g(b: float) -> float:
+        return abs(float(np.real(Eb(b) - Ea(b)))) - w0
+
     out = []
     for i in range(len(grid) - 1):
         if f[i] == 0 and grid[i] > 0:
             out.append(float(grid[i]))
         elif f[i] * f[i + 1] < 0:
-            def g(b):
-                return abs(float(np.real(Eb(b) - Ea(b)))) - w0
-            out.append(float(scipy.optimize.brentq(g, grid[i], grid[i + 1], xtol=1e-14,
-                                                   rtol=4 * np.finfo(float).eps)))
+            out.append(_bisect(g, float(grid[i]), float(grid[i + 1])))
     if f[-1] == 0:
         out.append(float(grid[-1]))
     return out

@@ -14,7 +14,7 @@ import pytest
 
 from symresp.cases import find_case, fit_case, read_case, read_data
 from symresp.cli import main
-from symresp.cli._plot_fit import HAVE_MATPLOTLIB, fit_figure
+from symresp.cli._plot import HAVE_MATPLOTLIB, fit_figure
 from symresp.emit import compile_module
 from tests.cases import synthetic
 
