@@ -38,10 +38,10 @@ import scipy.optimize
 import sympy as sp
 
 from ..algebra import Operator, SpinSite, to_array
-from ..emit import (AXES, TEMPERATURE_UNITS, Corrections, GTensor, evaluator_parameters,
-                    level_functions, magnetic_moment, molar_factor, moment_factor,
-                    numpy_functions, orientation_quadrature, temperature_factor, zeeman_constant)
-from ..emit import EXACT
+from ..emit import (AXES, EXACT, TEMPERATURE_UNITS, Corrections, GTensor, brillouin,
+                    evaluator_parameters, level_functions, magnetic_moment, molar_factor,
+                    moment_factor, numpy_functions, orientation_quadrature, temperature_factor,
+                    zeeman_constant)
 from ..errors import InputError
 from ..models import Budget, System
 from ..response import derive
@@ -448,8 +448,39 @@ class MagnetometryModel:
                            impurity_fraction=mf.impurity_fraction, impurity_spin=mf.impurity_spin,
                            impurity_g=mf.impurity_g, system=mf.system, energy_unit=mf.energy_unit)
         y, part = rest.susceptibility(chi, TE)
+        # the mean-field term was applied per axis above (with its own derivatives)
+        part = {k: v for k, v in part.items() if k not in ("mean_field", "mean_field_g")}
         jac = jac * part["chi0"][..., None] + self._entry_columns(part, TE.shape)
         return y, jac
+
+    def differential(self, theta: Sequence[float], T, B) -> np.ndarray:
+        r"""The differential susceptibility :math:`\partial M/\partial B` per formula unit in
+        :math:`\mu_B`/T at temperatures ``T`` and fields ``B`` (a finite-field model), with the
+        orientation average and the impurity, TIP and diamagnetic terms; divide by
+        :func:`symresp.emit.moment_factor` for a molar value."""
+        if not self.finite_field:
+            raise InputError("the differential susceptibility needs a finite-field model "
+                             "(finite_field=True)")
+        values = dict(zip(self.varied, (float(x) for x in theta)))
+        params = {s.name: values[s] for s in self.model_symbols}
+        T = np.asarray(T, dtype=float)
+        TE = T * self.t_energy
+        Bv = np.broadcast_to(np.asarray(B, dtype=float), TE.shape)
+        if self.symmetry == "oriented":
+            dirs, weights = [_float_direction(self.direction)], [1.0]
+        else:
+            assert self.quadrature is not None
+            dirs, weights = [tuple(d) for d in self.quadrature.directions], list(self.quadrature.weights)
+        dM = np.zeros(TE.shape)
+        for n, w in zip(dirs, weights):
+            _, _, d = self.levels.magnetisation(TE, params, Bv * self.c, n, self.basis)
+            dM += w * d * self.c                     # dM/dB = c dM/dF
+        corr = self._corrections(values)
+        S, gi, rho = corr.impurity_spin, corr.impurity_g, corr.impurity_fraction
+        x = gi * self.c * Bv * S / TE
+        _, dbs = brillouin(S, x)
+        return ((1 - rho) * dM + rho * gi * S * dbs * gi * self.c * S / TE
+                + self.kM * (corr.tip + corr.diamagnetic))
 
     def _finite(self, values, TE, B) -> tuple[np.ndarray, np.ndarray]:
         P = len(self.varied)
@@ -610,11 +641,11 @@ def fit_case(case: Case, data: DataTable, vary: Sequence[str], *,
     given = {p.symbol: v for p, v in parameter_values(case, values).items()}
     start = {**case.defaults, **given}
     field = sp.sympify(mag.zeeman.field).subs(start)  # safe: sympy object
-    if field.free_symbols:
-        raise InputError(f"{case.source}: the field {mag.zeeman.field} has no value; give it in "
-                         f"the case file, with --set, or as a B column of the data")
     if data.B is not None:
         B = np.array(data.B, dtype=float)
+    elif field.free_symbols:
+        raise InputError(f"{case.source}: the field {mag.zeeman.field} has no value; give it in "
+                         f"the case file, with --set, or as a B column of the data")
     else:
         B = np.full(len(data), float(field))
     finite = quantity == "M" or bool(np.any(B > 0))

@@ -236,3 +236,45 @@ def test_unweighted_fit_scales_errors_by_the_residuals(dinuclear, demo_data):
     result = fit_case(dinuclear, parse_data(text), ["J", "g"])
     assert not result.weighted
     assert math.isfinite(result.errors[0]) and result.errors[0] > 0
+
+
+def test_differential_susceptibility_is_the_field_derivative_of_M():
+    # dM/dB with an impurity and TIP, against a central difference of M(B)
+    case = parse_case(ION + '[sample]\ntip = 3e-4\nimpurity = { fraction = 0.05, spin = "5/2", g = 2.0 }\n')
+    model = magnetometry_model(case, "M", ["D", "g"], finite_field=True)
+    T, B = np.array([2.0, 5.0, 1.5]), np.array([1.0, 3.0, 6.0])
+    theta = [4.0, 2.1]
+    h = 1e-5
+    up, _ = model(theta, T, B + h)
+    dn, _ = model(theta, T, B - h)
+    np.testing.assert_allclose(model.differential(theta, T, B), (up - dn) / (2 * h), rtol=1e-6)
+    with pytest.raises(InputError, match="finite-field"):
+        magnetometry_model(case, "chi", ["D"]).differential([4.0], T, B)
+
+
+def test_mean_field_and_corrections_in_the_fitted_model(dinuclear):
+    # chi = (1 - rho) chi_BB / (1 + zJ chi_BB/(N_A mu_B^2 g^2)) + rho C/T + TIP + dia, with
+    # Bleaney-Bowers chi_BB (Source: Bleaney & Bowers 1952; mean-field convention of
+    # docs/conventions.md section 8)
+    text = open(find_case("dinuclear")).read().replace(
+        'tip = "tip"', 'tip = "tip"\nmean_field = "zJ"\ndiamagnetic = -1e-4').replace(
+        '[sites]', '[parameters.zJ]\nvalue = -3\n\n[sites]')
+    case = parse_case(text)
+    model = magnetometry_model(case, "chi", ["J", "g", "zJ", "rho"])
+    theta = np.array([60.0, 2.05, -3.0, 0.02])
+    T = np.array([3.0, 40.0, 250.0])
+    y, jac = model(theta, T)
+    J, g, zJ, rho = theta
+    F = molar_factor("cm^-1")
+    TE = T * temperature_factor("K", "cm^-1")
+    bb = F * g * g * 2 / (TE * (3 + np.exp(J / TE)))
+    mf = bb / (1 + zJ * bb / (F * g * g))
+    expected = (1 - rho) * mf + rho * F * g * g * 0.75 / (3 * TE) + 1.2e-4 - 1e-4
+    np.testing.assert_allclose(y, expected, rtol=RTOL_FORMULA)
+    for j in range(4):
+        h = np.zeros(4)
+        h[j] = 1e-6 * max(1.0, abs(theta[j]))
+        up, _ = model(theta + h, T)
+        dn, _ = model(theta - h, T)
+        # rounding of the difference quotient: about 1e-16 |y| / h
+        np.testing.assert_allclose(jac[:, j], (up - dn) / (2 * h[j]), rtol=1e-5, atol=1e-10)
