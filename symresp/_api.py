@@ -124,6 +124,8 @@ class Model:
     def matrix(self, op: object = None) -> sp.Matrix:
         """Sympy matrix of ``op`` (default: H) on the product basis (restricted to the sector).
 
+        Rows and columns are in the order of :meth:`basis_labels`.
+
         Examples
         --------
         >>> import sympy as sp, symresp as sr
@@ -150,7 +152,21 @@ class Model:
         return to_array(X, system.basis(), _numeric_params(system, params))
 
     def basis_labels(self) -> list[str]:
-        """Kets of the basis in matrix order, e.g. ``['|1/2,1/2>', ...]``."""
+        """Kets of the basis in the row order of :meth:`matrix` and :meth:`array`.
+
+        One entry per site, in the order the sites were created: S^z of a spin, the level of
+        an n-level site, the occupation of a fermion or boson mode.
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> s, q = sr.spin("s", sp.Rational(1, 2)), sr.nlevel("q", 2)
+        >>> model = sr.Model(s.z * q.proj(1))
+        >>> model.basis_labels()
+        ['|1/2,0>', '|1/2,1>', '|-1/2,0>', '|-1/2,1>']
+        >>> model.matrix().diagonal()
+        Matrix([[0, 1/2, 0, -1/2]])
+        """
         b = self._system.basis()
         return [b.label(i) for i in range(b.dimension)]
 

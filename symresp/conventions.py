@@ -124,17 +124,12 @@ class Convention:
         """+1 when omega enters as in the default convention, -1 when omega -> -omega."""
         return 1 if self.fourier == "+i omega t" else -1
 
-    @property
-    def is_default(self) -> bool:
-        """True for the pinned convention of symresp."""
-        return self == DEFAULT_CONVENTION
-
     def describe(self) -> str:
         """One line stating the convention, used in headers of emitted code and summaries."""
         return (
             f"hbar = k_B = 1; H(t) = {self.perturbation.replace('f', 'f(t)')}; "
             f"chi_AB(t) = {'i' if self.sign > 0 else '-i'} theta(t) <[A(t), B]>; "
-            f"chi(omega) = int dt exp({self.fourier.replace(' ', '')}) chi(t), {self.prescription}"
+            f"chi(omega) = int dt exp({self.fourier}) chi(t), {self.prescription}"
         )
 
 

@@ -58,4 +58,4 @@ def test_other_conventions_are_reachable_and_consistent():
     assert sp.simplify(flipped.static("isothermal") + resp.static("isothermal")) == 0
     reversed_ = model.response(s.x, convention=sr.Convention(fourier="-i omega t"))
     assert sp.simplify(reversed_.frequency() - default.subs(sr.omega, -sr.omega)) == 0
-    assert reversed_.convention.fourier == "-i omega t" and resp.convention.is_default
+    assert reversed_.convention.fourier == "-i omega t" and resp.convention == sr.Convention()

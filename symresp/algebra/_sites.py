@@ -78,11 +78,6 @@ class Site:
         """True for fermion modes (odd operators anticommute between modes)."""
         return self.kind == "fermion"
 
-    @property
-    def is_finite(self) -> bool:
-        """True for sites whose algebra is finite-dimensional (all but bosons)."""
-        return self.kind != "boson"
-
     def m_of(self, index: int) -> sp.Rational:
         """S^z eigenvalue of local basis state ``index`` of a spin site."""
         assert self.spin is not None
