@@ -380,6 +380,10 @@ class _Evaluator:
             r = x * y
             if _bad_number(r):
                 raise self.error(off, "the product has no finite value")
+            coefficient = r.as_coeff_Mul()[0]
+            if coefficient.is_Rational and _digits(coefficient) > MAX_DIGITS:
+                # each factor passed the limit, their product may not: 10^999*10^999
+                raise self.error(off, f"the product has a number of more than {MAX_DIGITS} digits")
             return r
         for v in (x, y):
             if not isinstance(v, Operator):
