@@ -3,13 +3,20 @@
 from __future__ import annotations
 
 import doctest
+import importlib
 import inspect
+import pkgutil
 
 import pytest
 import sympy as sp
 
 import symresp as sr
 from symresp._public import REGISTERED
+
+# The facade loads its modules on first use; load them all so that REGISTERED is complete.
+for _info in pkgutil.walk_packages(sr.__path__, "symresp."):
+    if not _info.name.endswith("__main__"):
+        importlib.import_module(_info.name)
 
 PUBLIC = {
     "spin", "nlevel", "fermion", "spinful_fermion", "boson", "dagger", "commutator",

@@ -22,12 +22,12 @@ from collections.abc import Callable, Sequence
 from importlib import metadata
 from pathlib import Path
 
-from .. import emit as emit_layer
 from ..cases import (QUANTITIES, Case, bundled_cases, case_directories, case_summary, derive_case,
                      find_case, parse_assignments, read_case, response_curves, verify_case,
                      with_values)
 from ..checks import QUANTITIES as CHECKED_QUANTITIES
 from ..checks import compare, consistency
+from ..emit import numpy_module_source
 from ..errors import InputError, SymrespError
 from ..models import Budget
 from ..response import Derivation
@@ -451,13 +451,6 @@ def _cmd_plot(args: argparse.Namespace, progress: _Progress) -> int:
 
 
 def _cmd_emit(args: argparse.Namespace, progress: _Progress) -> int:
-    # Extension point: the evaluator writer lives in symresp.emit; this command works as soon
-    # as that layer provides numpy_module_source(derivation) -> str.
-    writer = getattr(emit_layer, "numpy_module_source", None)
-    if writer is None:
-        print("error: this installation of symresp has no evaluator writer "
-              "(symresp.emit.numpy_module_source)", file=sys.stderr)
-        return EXIT_FAILURE
     case = _load(args, progress)
     if not case.responses:
         raise InputError(f"{case.source}: the case asks for no [[response]]; there is nothing to "
@@ -469,7 +462,7 @@ def _cmd_emit(args: argparse.Namespace, progress: _Progress) -> int:
     derived = _derive(case, args, progress)
     label, d = derived[0]
     progress(f"writing the evaluator of '{label}'")
-    source = writer(d)
+    source = numpy_module_source(d)
     out = Path(args.out)
     try:
         out.write_text(source, encoding="utf-8")

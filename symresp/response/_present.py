@@ -180,7 +180,8 @@ def boltzmann_form(expr: sp.Expr, *, min_generators: int = 1) -> sp.Expr | None:
     Examples
     --------
     >>> import sympy as sp
-    >>> b, J = sp.symbols("beta J", positive=True); h = sp.Symbol("h", real=True)
+    >>> from symresp.conventions import beta as b
+    >>> J, h = sp.Symbol("J", positive=True), sp.Symbol("h", real=True)
     >>> Zr = 1 + sp.exp(-b * (J - h)) + sp.exp(-b * J) + sp.exp(-b * (J + h))
     >>> boltzmann_form(b * (sp.exp(b * h) - sp.exp(-b * h)) * sp.exp(-b * J) / Zr)
     2*beta*exp(-J*beta)*sinh(beta*h)/((2*cosh(beta*h) + 1)*exp(-J*beta) + 1)
@@ -219,7 +220,8 @@ def hyperbolic_ratio(expr: sp.Expr) -> sp.Expr | None:
     Examples
     --------
     >>> import sympy as sp
-    >>> b, J1, J2 = sp.symbols("beta J1 J2", positive=True)
+    >>> from symresp.conventions import beta as b
+    >>> J1, J2 = sp.symbols("J1 J2", positive=True)
     >>> x = sp.exp(-b * (J1 - J2))
     >>> hyperbolic_ratio((1 - x**2) / (2 * (J1 - J2) * (1 + x**2)))
     tanh(beta*(J1 - J2))/(2*(J1 - J2))

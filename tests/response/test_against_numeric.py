@@ -84,17 +84,9 @@ def test_symbolic_response_equals_exact_diagonalisation(model, data):
     from_poles = sum((w / (Om - z) for Om, w in poles), 0j)
     assert_close(from_poles, ref.frequency(z.real, z.imag), rtol=RTOL_EXACT, atol=ATOL_EXACT * 10, what="poles")
     Z = _num(_subs(r.partition_function(), values, T), digits)
-    assert_close(np.log(abs(Z)), ref.log_Z, what="log Z")
-
-
-@pytest.mark.parametrize("S", ["1/2", "1", "3/2", "2", "5/2"])
-def test_free_spin_isothermal_is_curie_and_isolated_is_zero(S):
-    # Source: Curie law chi = beta S(S+1)/3 (common practice; e.g. any statistical mechanics text).
-    s = sr.spin("s", S)
-    r = sr.Model(0 * s.z).response(s.z)
-    Sv = sp.Rational(S)
-    assert sp.simplify(r.static("isothermal") - sr.beta * Sv * (Sv + 1) / 3) == 0
-    assert r.static("isolated") == 0
+    # Z itself must be real and positive; log|Z| alone would hide a sign or a phase.
+    assert Z.real > 0 and abs(Z.imag) <= RTOL_EXACT * Z.real, f"Z = {Z}"
+    assert_close(np.log(Z.real), ref.log_Z, what="log Z")
 
 
 def _imaginary_scale_models():
