@@ -42,7 +42,8 @@ THIRD_PARTY = {
     "numeric": {"numpy"},
     "algebra": {"sympy", "numpy"}, "text": {"sympy"}, "models": {"sympy"},
     "spectrum": _SYMBOLIC | {"flint"}, "response": _SYMBOLIC, "checks": _SYMBOLIC,
-    "emit": _SYMBOLIC, "cases": _SYMBOLIC, "_api": _SYMBOLIC, "cli": _SYMBOLIC,
+    "emit": _SYMBOLIC, "cases": _SYMBOLIC | {"scipy"},  # scipy: least-squares fits of data
+    "_api": _SYMBOLIC, "cli": _SYMBOLIC,
     "__main__": set(), "__init__": set(),
 }
 #: Optional dependencies: the one module that may import each, always under ``try``.
