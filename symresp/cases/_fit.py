@@ -37,8 +37,8 @@ import numpy as np
 import scipy.optimize
 import sympy as sp
 
-from ..algebra import Operator, SpinSite, to_array
-from ..emit import (AXES, EXACT, TEMPERATURE_UNITS, Corrections, GTensor, brillouin,
+from ..algebra import Operator, to_array
+from ..emit import (AXES, EXACT, TEMPERATURE_UNITS, Corrections, brillouin,
                     evaluator_parameters, level_functions, magnetic_moment, molar_factor,
                     moment_factor, numpy_functions, orientation_quadrature, temperature_factor,
                     zeeman_constant)
@@ -60,6 +60,8 @@ UNITS = {
     ("chiT", "cgs"): "cm^3 K/mol", ("chiT", "SI"): "m^3 K/mol",
     ("M", "cgs"): "mu_B per formula unit", ("M", "SI"): "mu_B per formula unit",
 }
+#: Measured quantities the model describes.
+UNITS_QUANTITIES = ("chi", "chiT", "M")
 #: Relative tolerance of the numeric symmetry test of the spectrum in a field.
 _SYMMETRY_RTOL = 1e-9
 #: Largest number of model evaluations of one fit.
@@ -176,18 +178,6 @@ class FitResult:
 
 
 # ------------------------------------------------------------------------------ the model
-@dataclass(frozen=True, slots=True)
-class _Axis:
-    direction: tuple[float, float, float]
-    weight: float
-    g_norm: object            # callable(values) -> (g_k, {symbol: dg_k/dsymbol}) or None
-
-
-def _spin_handles(case: Case) -> dict[SpinSite, GTensor]:
-    assert case.magnetism is not None and case.magnetism.zeeman is not None
-    return case.magnetism.zeeman.handles()
-
-
 def _float_direction(d: Sequence[sp.Expr]) -> tuple[float, float, float]:
     return tuple(float(x) for x in d)  # type: ignore[return-value]
 
@@ -248,7 +238,8 @@ class MagnetometryModel:
         if leftover:
             raise InputError(f"no value for {', '.join(sorted(s.name for s in leftover))}: give "
                              f"one in the case file or with --set NAME=VALUE")
-        entries = {k: sp.sympify(v).subs(fixed) for k, v in self.sample.entries().items()}  # safe: sympy objects
+        entries = {k: sp.sympify(v).subs(fixed)  # safe: sympy objects
+                   for k, v in self.sample.entries().items()}
         self.entries = entries
         used = set(self.model_symbols) | {e for e in entries.values() if isinstance(e, sp.Symbol)}
         unused = [s.name for s in self.varied if s not in used]
@@ -343,7 +334,8 @@ class MagnetometryModel:
 
     def _build_levels(self, budget: Budget) -> None:
         if self.symmetry in ("isotropic", "oriented"):
-            basis = [self.direction if self.symmetry == "oriented" else tuple(map(sp.Integer, AXES["z"]))]
+            basis = [self.direction if self.symmetry == "oriented"
+                     else tuple(map(sp.Integer, AXES["z"]))]
         elif self.symmetry == "axial":
             basis = [tuple(map(sp.Integer, AXES["x"])), tuple(map(sp.Integer, AXES["z"]))]
         else:
@@ -578,8 +570,6 @@ def magnetometry_model(case: Case, quantity: str, varied: Sequence[str] = (), *,
     return MagnetometryModel(case, quantity, vs, all_values, finite_field, budget=budget,
                              progress=progress)
 
-
-UNITS_QUANTITIES = ("chi", "chiT", "M")
 
 
 # ------------------------------------------------------------------------------ the fit

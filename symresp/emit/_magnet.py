@@ -63,8 +63,9 @@ class GTensor:
 
     def subs(self, mapping: Mapping) -> GTensor:
         """The tensor with parameters substituted."""
-        return GTensor(self.kind, tuple(tuple(sp.sympify(e).subs(mapping) for e in row)  # safe: sympy objects
-                                        for row in self.matrix))
+        rows = tuple(tuple(sp.sympify(e).subs(mapping) for e in row)  # safe: sympy objects
+                     for row in self.matrix)
+        return GTensor(self.kind, rows)
 
 
 def _entry(value: object, where: str) -> sp.Expr:
@@ -72,10 +73,7 @@ def _entry(value: object, where: str) -> sp.Expr:
         if not np.isfinite(value):
             raise InputError(f"{where}: {value!r} is not a finite number")
         return sp.Rational(repr(value))  # the decimal as written, exactly
-    try:
-        e = as_coefficient(value, where=where)
-    except InputError:
-        raise
+    e = as_coefficient(value, where=where)
     if e.has(sp.I) or any(not s.is_real for s in e.free_symbols):
         raise InputError(f"{where}: g entries must be real (declare parameters real=True), got {e}")
     return e

@@ -1,6 +1,7 @@
 r"""Resonance (ESR) fields at a fixed microwave frequency (layer: emit).
 
-Owns :class:`Resonance` and :func:`resonance_fields`. Imports numpy, sympy, :mod:`symresp.algebra`, :mod:`symresp.models`,
+Owns :class:`Resonance` and :func:`resonance_fields`. Imports numpy, sympy,
+:mod:`symresp.algebra`, :mod:`symresp.models`,
 :mod:`symresp.response`, :mod:`symresp.checks` (compiling closed forms to numpy) and the emit
 modules for units and the Zeeman term.
 
@@ -240,7 +241,8 @@ def resonance_fields(hamiltonian: object, g_by_site: Mapping, *,
 
 
 def _solve_exact(Om: sp.Expr, B: sp.Symbol, w0: sp.Rational, Bmax: float):
-    """Exact roots of |Om(B)| = w0 in (0, Bmax] (B in the unit of the symbol), or None when the spacing is implicit or sympy
+    """Exact roots of |Om(B)| = w0 in (0, Bmax] (B in the unit of the symbol), or None when the
+    spacing is implicit or sympy
     gives no closed solution."""
     if Om.has(LevelRoot, sp.CRootOf):
         return None

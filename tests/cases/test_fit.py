@@ -240,7 +240,8 @@ def test_unweighted_fit_scales_errors_by_the_residuals(dinuclear, demo_data):
 
 def test_differential_susceptibility_is_the_field_derivative_of_M():
     # dM/dB with an impurity and TIP, against a central difference of M(B)
-    case = parse_case(ION + '[sample]\ntip = 3e-4\nimpurity = { fraction = 0.05, spin = "5/2", g = 2.0 }\n')
+    case = parse_case(ION + '[sample]\ntip = 3e-4\n'
+                            'impurity = { fraction = 0.05, spin = "5/2", g = 2.0 }\n')
     model = magnetometry_model(case, "M", ["D", "g"], finite_field=True)
     T, B = np.array([2.0, 5.0, 1.5]), np.array([1.0, 3.0, 6.0])
     theta = [4.0, 2.1]
