@@ -32,7 +32,8 @@ PACKAGE = Path(__file__).resolve().parents[1] / "symresp"
 RANKS = {
     "conventions": 0, "errors": 0, "_public": 0,
     "algebra": 1, "numeric": 1, "text": 2, "models": 3, "spectrum": 4, "response": 5,
-    "checks": 6, "emit": 7, "cases": 8, "_api": 9, "cli": 10, "__main__": 11, "__init__": 11,
+    "checks": 6, "emit": 7, "cases": 8, "_api": 9, "batch": 9, "cli": 10, "__main__": 11,
+    "__init__": 11,
 }
 
 #: Third-party packages each layer may import (the standard library is always allowed).
@@ -43,11 +44,12 @@ THIRD_PARTY = {
     "algebra": {"sympy", "numpy"}, "text": {"sympy"}, "models": {"sympy"},
     "spectrum": _SYMBOLIC | {"flint"}, "response": _SYMBOLIC, "checks": _SYMBOLIC,
     "emit": _SYMBOLIC, "cases": _SYMBOLIC | {"scipy"},  # scipy: least-squares fits of data
-    "_api": _SYMBOLIC, "cli": _SYMBOLIC,
+    "_api": _SYMBOLIC, "batch": set(), "cli": _SYMBOLIC,
     "__main__": set(), "__init__": set(),
 }
 #: Optional dependencies: the one module that may import each, always under ``try``.
-OPTIONAL = {"matplotlib": {"cli/_plot.py"}}
+OPTIONAL = {"matplotlib": {"cli/_plot.py"}, "dask": {"batch/_cluster.py"},
+            "distributed": {"batch/_cluster.py"}}
 
 #: The sympy-based packages the numeric reference must not load.
 SYMBOLIC_PACKAGES = ("sympy", "mpmath", "flint")

@@ -22,6 +22,7 @@ from collections.abc import Callable, Sequence
 from importlib import metadata
 from pathlib import Path
 
+from ..batch import MAX_WORKERS, run_batch
 from ..cases import (QUANTITIES, Case, bundled_cases, case_directories, case_summary, derive_case,
                      find_case, parse_assignments, read_case, response_curves, verify_case,
                      with_values)
@@ -32,6 +33,7 @@ from ..errors import InputError, SymrespError
 from ..models import Budget
 from ..response import Derivation
 from ..text import ParseError
+from ._batch import describe_outputs, report_lines
 from ._fit import add_fit_parser
 from ._resonance import add_resonance_parser
 from ._format import derivation_json, describe_case, describe_derivation, verification_table
@@ -231,6 +233,31 @@ def build_parser() -> argparse.ArgumentParser:
 
     add_fit_parser(sub, common, _positive_float)
     add_resonance_parser(sub, common, _positive_float)
+
+    p = sub.add_parser("batch", parents=[common],
+                       help="derive every response of many case files in parallel",
+                       description="Derive every response of every case file, one task per "
+                                   "response, on a local dask cluster or on a running dask "
+                                   "scheduler, and write each result (summary, JSON, LaTeX, "
+                                   "evaluator) and a manifest into DIR. Results whose case file "
+                                   "and symresp version are unchanged are not derived again.",
+                       epilog="See docs/batch.md (running on a cluster, what travels to the "
+                              "workers, memory per worker).")
+    p.add_argument("files", nargs="+", metavar="FILE",
+                   help="case files (paths) or names of bundled cases")
+    p.add_argument("--out", required=True, metavar="DIR", help="directory of the results")
+    where = p.add_mutually_exclusive_group()
+    where.add_argument("--scheduler", metavar="ADDRESS",
+                       help="address of a running dask scheduler, e.g. tcp://10.0.0.5:8786 "
+                            "(default: start a local cluster)")
+    where.add_argument("--workers", type=_whole_number(0, MAX_WORKERS), metavar="N",
+                       help="worker processes of the local cluster (default: one per CPU); 0 "
+                            "runs every task in this process, without dask")
+    p.add_argument("--budget", type=_positive_float, metavar="SECONDS", default=600.0,
+                   help="time limit of each task (derivation and outputs; default: 600)")
+    p.add_argument("--force", action="store_true",
+                   help="derive again even the results that are fresh")
+    p.set_defaults(run=_cmd_batch)
     return parser
 
 
@@ -470,3 +497,11 @@ def _cmd_emit(args: argparse.Namespace, progress: _Progress) -> int:
         raise InputError(f"--out {out}: cannot write the file ({err.strerror or err})") from None
     print(out)
     return EXIT_OK
+
+
+def _cmd_batch(args: argparse.Namespace, progress: _Progress) -> int:
+    report = run_batch(args.files, args.out, scheduler=args.scheduler, workers=args.workers,
+                       budget=args.budget, force=args.force, describe=describe_outputs,
+                       progress=not args.quiet)
+    print("\n".join(report_lines(report)))
+    return EXIT_OK if report.ok else EXIT_FAILURE

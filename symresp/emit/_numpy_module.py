@@ -106,6 +106,8 @@ def _header(d: Derivation, plan: Plan, fp: str, version: str, name: str) -> str:
         "in the inverse of that unit. See docs/units.md for conversions and molar quantities.",
         "",
         f"Parameters, in the order every function takes them after its grid: {pnames}",
+        "Arguments broadcast together; any of them may be a dask array, and the result is then a",
+        "lazy dask array evaluated block by block by the same code (dask is imported only then).",
     ]
     if renamed:
         lines.append("Renamed to Python identifiers: " + ", ".join(renamed))
@@ -326,7 +328,9 @@ def _glue(plan: Plan, has_time: bool) -> list[str]:
            ["    raise ValueError('chi(t) of the advanced convention vanishes for t > 0; '",
             "                     'derive with the retarded convention')"])
     fn(f"def energies({', '.join(plan.names)}):", "energies",
-       [f"    ps, scalar = _parameters({tup})",
+       [f"    if _is_lazy({tup}):",
+        f"        return _over_blocks(energies, {tup}, _F64, len(DEGENERACIES))",
+        f"    ps, scalar = _parameters({tup})",
         "    if scalar:",
         "        return numpy.array(_stage_p_s(_energies_s, ps))",
         "    values = numpy.broadcast_arrays(*_stage_p_a(_energies_a, ps), *ps)[:len(DEGENERACIES)]",

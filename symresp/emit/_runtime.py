@@ -173,8 +173,48 @@ def _store(out, s, value, width):
             out[s, k] = v
 
 
+def _is_lazy(values):
+    """True when a value is a dask array (or another dask collection); dask is not imported."""
+    for v in values:
+        if hasattr(v, "__dask_graph__"):
+            return True
+    return False
+
+
+def _over_blocks(func, args, dtype, width=None):
+    """func(*args) block by block, when some argument is a dask array: the numpy code runs
+    unchanged on each block (dask.array.blockwise, arguments broadcast from the left, size-1
+    axes broadcast), and the result is a lazy dask array of the broadcast shape (with a
+    trailing axis of length width for Jacobians and energies). dask is imported here only."""
+    import uuid
+
+    import dask.array as da
+    arrays = [a if _is_lazy((a,)) else numpy.asarray(a) for a in args]
+    ndim = max(a.ndim for a in arrays)
+    out = tuple(f"i{k}" for k in range(ndim))
+    pairs = []
+    for a, v in zip(arrays, args):
+        if a.ndim == 0 and not _is_lazy((v,)):
+            pairs += [v, None]          # a number: passed as it is to every block
+        else:
+            pairs += [a, out[ndim - a.ndim:]]
+    new_axes = {}
+    if width is not None:
+        out += ("_width",)
+        new_axes = {"_width": width}
+    meta = numpy.empty((0,) * len(out), dtype=dtype)
+    # A fresh name: without one dask would hash the block function and its closure (the
+    # kernels) by pickling them, which took longer than evaluating 1e5 points.
+    name = f"symresp-{uuid.uuid4().hex}"
+    return da.blockwise(func, out, *pairs, new_axes=new_axes, dtype=dtype, meta=meta, name=name)
+
+
 def _static_call(kern_s, kern_a, par_s, par_a, T, params, width, dtype):
     """Drive a stage-B kernel over temperatures and parameters (all broadcasting together)."""
+    if _is_lazy((T, *params)):
+        return _over_blocks(
+            lambda T, *ps: _static_call(kern_s, kern_a, par_s, par_a, T, ps, width, dtype),
+            (T, *params), dtype, width)
     T = _temperature(T)
     ps, scalar = _parameters(params)
     size = _NUDGE if width is None else _NUDGE_JACOBIAN
@@ -214,6 +254,11 @@ def _static_call(kern_s, kern_a, par_s, par_a, T, params, width, dtype):
 
 def _dynamic_call(kern_s, kern_a, par_s, par_a, grid, name, X, T, params, eta, dtype):
     """Drive stage B (pole coefficients) and stage W (the grid) over broadcast inputs."""
+    if _is_lazy((X, T, *params)):
+        return _over_blocks(
+            lambda X, T, *ps: _dynamic_call(kern_s, kern_a, par_s, par_a, grid, name, X, T, ps,
+                                            eta, dtype),
+            (X, T, *params), dtype)
     X = _real_input(name, X)
     T = _temperature(T)
     ps, scalar = _parameters(params)
