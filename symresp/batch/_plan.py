@@ -12,11 +12,11 @@ from __future__ import annotations
 import hashlib
 import json
 import re
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..cases import find_case, read_case
+from ..cases import find_case, read_case, with_values
 from ..emit import symresp_version
 from ..errors import InputError
 from ._task import LEVELS, Describe, TaskSpec
@@ -66,8 +66,10 @@ class CaseFailure:
 
 
 def fingerprint(text: str, label: str, *, version: str | None = None,
-                describe: Describe | None = None) -> str:
-    """sha256 (hex) identifying one result: case text, label, symresp version, output layout.
+                describe: Describe | None = None,
+                settings: tuple[tuple[str, str], ...] = ()) -> str:
+    """sha256 (hex) identifying one result: case text, label, parameters fixed by ``--set``,
+    symresp version, output layout.
 
     Examples
     --------
@@ -78,7 +80,7 @@ def fingerprint(text: str, label: str, *, version: str | None = None,
     """
     writer = "" if describe is None else f"{describe.__module__}.{describe.__qualname__}"
     doc = {"format": FORMAT, "version": symresp_version() if version is None else version,
-           "text": text, "label": label, "describe": writer}
+           "text": text, "label": label, "describe": writer, "settings": list(settings)}
     return hashlib.sha256(json.dumps(doc, sort_keys=True).encode()).hexdigest()
 
 
@@ -109,8 +111,13 @@ def _read_text(path: Path) -> str | None:
 
 
 def plan_batch(names: Sequence[str], *, budget: float = 600.0,
-               describe: Describe | None = None) -> tuple[tuple[Task, ...], tuple[CaseFailure, ...]]:
+               describe: Describe | None = None,
+               settings: Mapping[str, str] | None = None
+               ) -> tuple[tuple[Task, ...], tuple[CaseFailure, ...]]:
     """Read the case files ``names`` (paths or bundled case names) and list one task per response.
+
+    ``settings`` (``{name: value text}``, as ``--set`` gives) fixes parameters in every case; a
+    case that does not declare one of them fails as bad input, like the other commands.
 
     A case without ``[[response]]`` gives one task, labelled ``"levels"``. A file that cannot be
     read or is malformed gives a :class:`CaseFailure` with the error message; the other files
@@ -128,6 +135,8 @@ def plan_batch(names: Sequence[str], *, budget: float = 600.0,
     >>> [t.key for t in tasks], failures
     (['dimer/M', 'dimer/Mx', 'ring4/uniform', 'ring4/staggered'], ())
     """
+    fixed = dict(settings or {})
+    pairs = tuple(sorted((str(k), str(v)) for k, v in fixed.items()))
     tasks: list[Task] = []
     failures: list[CaseFailure] = []
     seen: dict[str, str] = {}
@@ -142,11 +151,11 @@ def plan_batch(names: Sequence[str], *, budget: float = 600.0,
                                  f"rename one of them")
             seen[stem] = source
             text = _read_text(path)
-            case = read_case(path)  # the checks and messages of the other commands
+            case = with_values(read_case(path), fixed)  # the checks of the other commands
             if text is None:
                 raise InputError(f"{source}: cannot read the case file")
         except InputError as err:
-            fp = "" if text is None else fingerprint(text, "", describe=describe)
+            fp = "" if text is None else fingerprint(text, "", describe=describe, settings=pairs)
             failures.append(CaseFailure(stem, source, fp, str(err)))
             continue
         labels = [r.label for r in case.responses] or [LEVELS]
@@ -157,7 +166,8 @@ def plan_batch(names: Sequence[str], *, budget: float = 600.0,
             while fstem in stems:  # two labels that sanitise alike (never for plain names)
                 fstem += "_"
             stems.add(fstem)
-            spec = TaskSpec(f"{stem}/{label}", stem, source, text, label, float(budget), describe)
-            tasks.append(Task(spec, fingerprint(text, label, describe=describe), fstem,
-                              dimension))
+            spec = TaskSpec(f"{stem}/{label}", stem, source, text, label, float(budget), describe,
+                            pairs)
+            tasks.append(Task(spec, fingerprint(text, label, describe=describe, settings=pairs),
+                              fstem, dimension))
     return tuple(tasks), tuple(failures)

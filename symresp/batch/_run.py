@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import importlib
 import os
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TextIO
@@ -83,8 +83,9 @@ def _execute_serially(tasks: Sequence[Task],
 
 def run_batch(names: Sequence[str], out: str | Path, *, scheduler: str | None = None,
               workers: int | None = None, budget: float = 600.0, force: bool = False,
-              describe: Describe | None = None, progress: bool = True,
-              stream: TextIO | None = None, on_result: OnResult | None = None) -> BatchReport:
+              describe: Describe | None = None, settings: Mapping[str, str] | None = None,
+              progress: bool = True, stream: TextIO | None = None,
+              on_result: OnResult | None = None) -> BatchReport:
     """Derive every response of every case file, one task per response, and write the results.
 
     Parameters
@@ -106,6 +107,8 @@ def run_batch(names: Sequence[str], out: str | Path, *, scheduler: str | None = 
     describe : callable, optional
         Writer of the text outputs of a response (see :data:`~._task.Describe`); the command
         line passes its summary and JSON writers.
+    settings : mapping, optional
+        ``{name: value}`` parameters fixed at exact values in every case (``--set``).
     progress : bool
         Draw a progress bar on ``stream`` if it is a terminal.
     stream : text stream, optional
@@ -165,16 +168,17 @@ def run_batch(names: Sequence[str], out: str | Path, *, scheduler: str | None = 
     store = Store(out)
     try:
         return _run(store, names, scheduler=scheduler, workers=workers, budget=float(budget),
-                    force=force, describe=describe, progress=progress, stream=stream,
-                    on_result=on_result)
+                    force=force, describe=describe, settings=settings, progress=progress,
+                    stream=stream, on_result=on_result)
     finally:
         store.close()
 
 
 def _run(store: Store, names: Sequence[str], *, scheduler: str | None, workers: int | None,
-         budget: float, force: bool, describe: Describe | None, progress: bool,
-         stream: TextIO | None, on_result: OnResult | None) -> BatchReport:
-    tasks, failures = plan_batch(names, budget=budget, describe=describe)
+         budget: float, force: bool, describe: Describe | None,
+         settings: Mapping[str, str] | None, progress: bool, stream: TextIO | None,
+         on_result: OnResult | None) -> BatchReport:
+    tasks, failures = plan_batch(names, budget=budget, describe=describe, settings=settings)
     rows: list[ReportRow] = []
     for failure in failures:
         store.record_failure(failure, BAD_INPUT)

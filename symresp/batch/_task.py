@@ -20,7 +20,7 @@ import traceback
 from collections.abc import Callable
 from dataclasses import dataclass
 
-from ..cases import Case, derive_case, parse_case
+from ..cases import Case, derive_case, parse_case, with_values
 from ..emit import latex_document, numpy_module_source, symresp_version
 from ..errors import BudgetExceeded, InputError, SymrespError
 from ..models import Budget
@@ -70,6 +70,9 @@ class TaskSpec:
     describe : callable or None
         Writer of the text outputs (see :data:`Describe`); None writes only LaTeX and the
         evaluator.
+    settings : tuple of (name, value text)
+        Parameters fixed at exact values, as ``--set NAME=VALUE`` does
+        (:func:`symresp.cases.with_values`).
     """
 
     key: str
@@ -79,6 +82,7 @@ class TaskSpec:
     label: str
     budget: float
     describe: Describe | None = None
+    settings: tuple[tuple[str, str], ...] = ()
 
 
 @dataclass(frozen=True, slots=True)
@@ -191,8 +195,8 @@ def run_task(spec: TaskSpec) -> TaskResult:
                           round(time.monotonic() - start, 3), version, worker, _peak_rss_mb())
 
     try:
-        case = _one_response(parse_case(spec.text, source=spec.source, name=spec.case_name),
-                             spec.label)
+        case = parse_case(spec.text, source=spec.source, name=spec.case_name)
+        case = _one_response(with_values(case, dict(spec.settings)), spec.label)
         (label, d), = derive_case(case, budget=Budget(seconds=float(spec.budget)))
         outputs, notes = _outputs(spec, case, label, d, deadline)
     except InputError as err:

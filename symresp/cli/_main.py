@@ -502,6 +502,6 @@ def _cmd_emit(args: argparse.Namespace, progress: _Progress) -> int:
 def _cmd_batch(args: argparse.Namespace, progress: _Progress) -> int:
     report = run_batch(args.files, args.out, scheduler=args.scheduler, workers=args.workers,
                        budget=args.budget, force=args.force, describe=describe_outputs,
-                       progress=not args.quiet)
+                       settings=parse_assignments(args.set), progress=not args.quiet)
     print("\n".join(report_lines(report)))
     return EXIT_OK if report.ok else EXIT_FAILURE
