@@ -134,16 +134,20 @@ def run_batch(names: Sequence[str], out: str | Path, *, scheduler: str | None = 
     --------
     >>> import json, pathlib, tempfile
     >>> from symresp.batch import run_batch
-    >>> out = pathlib.Path(tempfile.mkdtemp())
-    >>> report = run_batch(["two_level"], out, workers=0)
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> case = folder / "spin.toml"
+    >>> _ = case.write_text('[model]\\nhamiltonian = "-h*q.z"\\n[parameters]\\nh = {}\\n'
+    ...                     '[sites]\\nq = "spin 1/2"\\n[[response]]\\nlabel = "mz"\\nA = "q.z"\\n')
+    >>> report = run_batch([str(case)], folder / "out", workers=0)
     >>> [(row.key, row.status) for row in report.rows]
-    [('two_level/dipole', 'ok')]
-    >>> sorted(p.name for p in (out / "two_level").iterdir())
-    ['dipole.py', 'dipole.tex']
-    >>> json.loads((out / "manifest.json").read_text())["results"]["two_level/dipole"]["status"]
+    [('spin/mz', 'ok')]
+    >>> sorted(p.name for p in (folder / "out" / "spin").iterdir())
+    ['mz.py', 'mz.tex']
+    >>> manifest = json.loads((folder / "out" / "manifest.json").read_text())
+    >>> manifest["results"]["spin/mz"]["status"]
     'ok'
-    >>> run_batch(["two_level"], out, workers=0).fresh       # nothing changed: nothing to do
-    ('two_level/dipole',)
+    >>> run_batch([str(case)], folder / "out", workers=0).fresh    # nothing changed: nothing to do
+    ('spin/mz',)
     """
     if scheduler is not None and not isinstance(scheduler, str):
         raise InputError(f"batch: scheduler={scheduler!r} must be an address string such as "
