@@ -19,8 +19,8 @@ writes its summary, JSON, LaTeX and evaluator module, as ``symresp batch`` does)
 * Hubbard rings, ``H = -tc sum (c+_i c_j + h.c.) + U sum n_up n_dn`` in a particle-number
   sector: 3 sites with 2 electrons (``spin`` and ``site_charge``), and 4 sites at half filling
   (``spin``). The 4-site ring needs the fermion lattice symmetries (its Sz = 0 block of 36
-  states mixes tc and U): until the engine has them the row is reported as ``pending`` and left
-  out of the ratios.
+  states mixes tc and U); a row of ``PENDING`` that fails is reported as ``pending`` and left
+  out of the ratios, so the benchmark also runs on an engine without them.
 
 Runs, all in one process, each into its own output directory and with the same code as the
 command (:func:`symresp.batch.run_batch`):
