@@ -15,7 +15,7 @@ Public surface:
 Imports the layers below it (response, spectrum, conventions, errors); nothing below imports it.
 """
 
-from ._latex import latex_document
+from ._latex import latex_comment, latex_document, latex_text
 from ._levelfunctions import LevelFunctions, evaluator_parameters, level_functions
 from ._magnet import (AXES, GTensor, Quadrature, field_direction, g_tensor, magnetic_moment,
                       orientation_quadrature, zeeman)
@@ -32,7 +32,7 @@ from ._units import (AVOGADRO, BOHR_MAGNETON, BOLTZMANN, ELEMENTARY_CHARGE, ENER
 
 __all__ = [
     "numpy_module_source", "compile_module", "numpy_functions", "symresp_version",
-    "latex_document",
+    "latex_document", "latex_text", "latex_comment",
     "energy_in_joule", "energy_factor", "convert_energy", "molar_susceptibility",
     "molar_susceptibility_times_temperature",
     "curie_constant", "ENERGY_UNITS", "PLANCK", "BOLTZMANN", "ELEMENTARY_CHARGE",

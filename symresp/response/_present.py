@@ -8,8 +8,11 @@ Method
 1. Every exponent is a sum :math:`\sum_j c_j g_j` of rational multiples of a few *generators*
    :math:`g_j` (``beta*J``, ``beta*h``, ``beta*sqrt(J**2 + h**2)``, ...). A generator that is
    positive under the symbols' assumptions gets a decaying variable
-   :math:`u_j = e^{-g_j/L_j}`; any other (a field, a detuning) a symmetric one
-   :math:`u_j = e^{g_j/L_j}` (:math:`L_j` clears the denominators of the :math:`c_j`).
+   :math:`u_j = e^{-q_j g_j}`; any other (a field, a detuning) a symmetric one
+   :math:`u_j = e^{q_j g_j}`, where :math:`q_j` is the rational gcd of the :math:`c_j` (so a
+   g-factor 2.0023 is scaled out rather than turned into powers of :math:`e^{g/10000}`). When
+   the powers of some :math:`u_j` would span more than :data:`MAX_SPAN` the expression is
+   returned unchanged (``None``): factoring such a polynomial takes minutes.
 2. The expression becomes a rational function of the :math:`u_j`; numerator and denominator
    are factored as polynomials (``factor_list``): this finds, e.g., that the denominator of an
    isothermal susceptibility is the square of the reduced partition function.
@@ -25,14 +28,19 @@ in generators the expression is returned unchanged (``None``), and the caller fa
 
 from __future__ import annotations
 
+import math
 from functools import reduce
 
 import sympy as sp
 
-__all__ = ["boltzmann_form", "merge_exponentials", "hyperbolic_ratio"]
+__all__ = ["boltzmann_form", "merge_exponentials", "hyperbolic_ratio", "MAX_SPAN", "MAX_BOX"]
 
-#: Largest power of a Boltzmann variable u in a presented polynomial.
-_MAX_POWER = 10**4
+#: Largest span of powers of one Boltzmann variable u_j in a presented form. Beyond it the
+#: polynomial in u_j would be too long to factor (a coefficient 2.0023 next to 2 in the
+#: same exponent needs u = e^{g/10000} and powers up to ~20000); the plain form is kept.
+MAX_SPAN = 256
+#: Largest number of monomials of the box spanned by all the Boltzmann variables together.
+MAX_BOX = 4096
 
 
 def _generators(expr: sp.Expr):
@@ -65,24 +73,26 @@ def _generators(expr: sp.Expr):
     point = {x: (sp.Rational(2, 3) + sp.Rational(k, 7)) if x.is_positive else
              (sp.Rational(1, 10) + sp.Rational(k, 37)) for k, x in enumerate(symbols)}
     gens = {}
+    box = 1
     for k, g in enumerate(basis):
-        L = reduce(sp.ilcm, [sp.Rational(t[k]).q for t in coords.values()], 1)
-        if L > _MAX_POWER:
-            # Exact physical constants (a Zeeman coefficient mu_B/E_u) give coordinates with
-            # huge denominators; the generator then absorbs their rational gcd, so that the
-            # powers of u stay small instead of reaching 10^16.
-            ts = [sp.Rational(t[k]) for t in coords.values() if t[k] != 0]
-            gcd = sp.Rational(reduce(sp.igcd, [t.p for t in ts], 0), L)
-            if any(abs(t / gcd) > _MAX_POWER for t in ts):
-                return None
-            L = 1 / gcd
+        # The step is the rational gcd of the coefficients on g (scaling the energies out):
+        # exponents 0, +-20023/10000, +-20023/5000 of a g-factor give powers 0, +-1, +-2 of
+        # u = e^{20023 g/10000}, not powers up to 40046 of e^{g/10000}; exact physical
+        # constants (a Zeeman coefficient mu_B/E_u) with huge denominators likewise.
+        cs = [sp.Rational(t[k]) for t in coords.values() if t[k] != 0]
+        step = sp.Rational(reduce(math.gcd, [int(c.p) for c in cs], 0),
+                           reduce(sp.ilcm, [int(c.q) for c in cs], 1))
+        span = (max(max(cs), 0) - min(min(cs), 0)) / step if cs else 0
+        box *= int(span) + 1
+        if span > MAX_SPAN or box > MAX_BOX:
+            return None                    # a polynomial too large to factor: plain form
         decaying = bool(g.is_positive)
         # Oriented so that the variable is a decaying Boltzmann factor at a generic point.
         value = sp.N(g.subs(point))
         if not value.is_real or value == 0:
             return None                    # not a thermal exponent (e.g. a phase)
         sign = -1 if decaying or value > 0 else 1
-        gens[g] = (sp.Dummy(f"u{k}", positive=True), sp.Rational(sign, L), decaying)
+        gens[g] = (sp.Dummy(f"u{k}", positive=True), sign * step, decaying)
     return gens, coords
 
 
