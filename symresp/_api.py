@@ -270,6 +270,10 @@ class Response:
             raise InputError("Response: build responses with Model.response(A, B)")
         self._d = derivation
 
+    def _budgeted(self):
+        """One clock for this call, with the budget the response was derived with."""
+        return self._d.budget.start().running()
+
     @property
     def derivation(self) -> Derivation:
         """The underlying derivation (levels, weights, spectrum)."""
@@ -314,7 +318,8 @@ class Response:
         >>> sr.Model(0 * s.z).response(s.z).static("isothermal")   # beta S(S+1)/3
         5*beta/4
         """
-        return self._d.static(kind)
+        with self._budgeted():
+            return self._d.static(kind)
 
     def frequency(self) -> sp.Expr:
         r""":math:`\chi_{AB}(\omega)` in ``sr.omega``, retarded prescription implied.
@@ -327,7 +332,8 @@ class Response:
         >>> sp.simplify(r.frequency().subs(sr.omega, 0) - r.static("isolated"))
         0
         """
-        return self._d.frequency(omega)
+        with self._budgeted():
+            return self._d.frequency(omega)
 
     def time(self) -> sp.Expr:
         r""":math:`\chi_{AB}(t)` for t > 0 in ``sr.t``.
@@ -339,7 +345,8 @@ class Response:
         >>> sr.Model(h * s.z).response(s.x).time()
         sin(h*t)*tanh(beta*h/2)/2
         """
-        return self._d.time(t)
+        with self._budgeted():
+            return self._d.time(t)
 
     def poles(self) -> list[tuple[sp.Expr, sp.Expr]]:
         r"""Pole table :math:`[(\Omega_k, w_k)]`: :math:`\chi(\omega) = \sum_k w_k/(\Omega_k - \omega - i0^+)`.
@@ -351,7 +358,8 @@ class Response:
         >>> sr.Model(0 * s.z).response(s.z).poles()    # a free spin has no transitions
         []
         """
-        return self._d.poles()
+        with self._budgeted():
+            return self._d.poles()
 
     def spectral_lines(self) -> list[tuple[sp.Expr, sp.Expr]]:
         r"""Lines of :math:`\chi''(\omega) = \pi \sum_k w_k \delta(\omega - \Omega_k)` as (position, strength).
@@ -363,7 +371,8 @@ class Response:
         >>> sr.Model(h * s.z).response(s.x).spectral_lines()[-1]
         (h, pi*tanh(beta*h/2)/4)
         """
-        return self._d.spectral_lines()
+        with self._budgeted():
+            return self._d.spectral_lines()
 
     def matsubara(self) -> sp.Expr:
         r""":math:`\chi(i\nu_n)` in ``sr.nu`` for :math:`\nu_n \ne 0` (at :math:`\nu_n = 0` use the isothermal value).
@@ -376,7 +385,8 @@ class Response:
         >>> sp.simplify(r.matsubara().subs(sr.nu, 0) - r.static("isolated"))
         0
         """
-        return self._d.matsubara(nu)
+        with self._budgeted():
+            return self._d.matsubara(nu)
 
     def zero_temperature(self, kind: Literal["isothermal", "isolated"] = "isothermal") -> sp.Expr:
         r"""Static susceptibility at T = 0 (ground level = the lowest level at the sample point).
@@ -390,7 +400,8 @@ class Response:
         >>> sr.Model(0 * s.z).response(s.z).zero_temperature()        # Curie term diverges
         oo
         """
-        return self._d.zero_temperature(kind)
+        with self._budgeted():
+            return self._d.zero_temperature(kind)
 
     def partition_function(self) -> sp.Expr:
         r"""Partition function :math:`Z = \sum_a d_a e^{-\beta E_a}`.
@@ -402,7 +413,8 @@ class Response:
         >>> sr.Model(0 * s.z).response(s.z).partition_function()
         3
         """
-        return self._d.partition()
+        with self._budgeted():
+            return self._d.partition()
 
     def expectation(self, which: Literal["A", "B"] = "A") -> sp.Expr:
         r"""Thermal average :math:`\langle A\rangle` (or :math:`\langle B\rangle`) in the Gibbs state of H.
@@ -416,7 +428,8 @@ class Response:
         """
         if which not in ("A", "B"):
             raise InputError(f"expectation: which={which!r} must be 'A' or 'B'")
-        return sp.factor(self._d.expectation(which))
+        with self._budgeted():
+            return sp.factor(self._d.expectation(which))
 
     def evaluate(self, quantity: Quantity, *, params: Mapping | None = None, T: float | None = None,
                  omega_value: complex | None = None, time_value: float | None = None) -> complex:
@@ -429,8 +442,9 @@ class Response:
         >>> round(sr.Model(0 * s.z).response(s.z).evaluate("isothermal", T=0.5).real, 12)
         0.5
         """
-        return evaluate_expression(self, quantity, params=params, T=T, omega_value=omega_value,
-                                   time_value=time_value)
+        with self._budgeted():
+            return evaluate_expression(self, quantity, params=params, T=T, omega_value=omega_value,
+                                       time_value=time_value)
 
     def reference(self, *, params: Mapping | None = None, T: float) -> numeric.NumericResponse:
         """The numeric reference (exact diagonalisation) at numbers, for comparison.
@@ -466,7 +480,8 @@ class Response:
         >>> sr.Model(0 * s.z).response(s.z).check("beta/4", "isolated").slip
         'isothermal-for-isolated'
         """
-        return compare(self._d, formula, quantity, samples=samples, seed=seed, units=units)
+        with self._budgeted():
+            return compare(self._d, formula, quantity, samples=samples, seed=seed, units=units)
 
     def consistency(self, *, points: int = 3, seed: int = 0) -> Report:
         """Run the physical consistency checks (sum rules, Kramers-Kronig, fluctuation-dissipation,
@@ -479,7 +494,8 @@ class Response:
         >>> sr.Model(h * s.z).response(s.x).consistency(points=1).ok
         True
         """
-        return consistency(self._d, points=points, seed=seed)
+        with self._budgeted():
+            return consistency(self._d, points=points, seed=seed)
 
     def numpy(self) -> types.ModuleType:
         """Compiled numpy evaluators of this response (no sympy at run time); see docs/evaluators.md.
@@ -491,7 +507,8 @@ class Response:
         >>> sr.Model(0 * s.z).response(s.z).numpy().chi_isothermal(0.5)
         0.5
         """
-        return numpy_functions(self._d)
+        with self._budgeted():
+            return numpy_functions(self._d)
 
     def evaluator_source(self, *, name: str | None = None) -> str:
         """Source of the standalone numpy module (write it to a file, import it anywhere).
@@ -503,7 +520,8 @@ class Response:
         >>> "import sympy" in sr.Model(0 * s.z).response(s.z).evaluator_source()
         False
         """
-        return numpy_module_source(self._d, name=name)
+        with self._budgeted():
+            return numpy_module_source(self._d, name=name)
 
     def latex_document(self, *, substitutions: Mapping | None = None,
                        symbol_names: Mapping | None = None) -> str:
@@ -516,7 +534,8 @@ class Response:
         >>> "begin{aligned}" in sr.Model(0 * s.z).response(s.z).latex_document()
         True
         """
-        return latex_document(self._d, substitutions=substitutions, symbol_names=symbol_names)
+        with self._budgeted():
+            return latex_document(self._d, substitutions=substitutions, symbol_names=symbol_names)
 
     def summary(self) -> str:
         """A readable derivation summary: levels, transitions, Z, static and dynamic chi.
@@ -528,6 +547,10 @@ class Response:
         >>> print(sr.Model(0 * s.z).response(s.z).summary().splitlines()[0])
         Linear response chi_AB of model 'model'
         """
+        with self._budgeted():
+            return self._summary()
+
+    def _summary(self) -> str:
         d = self._d
         lines = [f"Linear response chi_AB of model {d.system.name!r}",
                  f"  A = {describe(d.A)}", f"  B = {describe(d.B)}",
@@ -557,6 +580,10 @@ class Response:
         >>> print(sr.Model(0 * s.z).response(s.z).latex().splitlines()[1])
         Z &= 2 \\
         """
+        with self._budgeted():
+            return self._latex()
+
+    def _latex(self) -> str:
         rows = [("Z", self.partition_function()),
                 (r"\chi^{T}_{AB}", self.static("isothermal")),
                 (r"\chi^{\mathrm{isol}}_{AB}", self.static("isolated")),

@@ -30,7 +30,7 @@ from ..checks import QUANTITIES as CHECKED_QUANTITIES
 from ..checks import compare, consistency
 from ..emit import numpy_module_source
 from ..errors import InputError, SymrespError
-from ..models import Budget
+from ..models import DEFAULT_SECONDS, Budget, checkpoint
 from ..response import Derivation
 from ..text import ParseError
 from ._batch import describe_outputs, report_lines
@@ -62,6 +62,8 @@ class _Progress:
         self.start = time.monotonic()
 
     def __call__(self, message: str) -> None:
+        # Each stage is also a check of the command's time budget (naming the stage).
+        checkpoint(message)
         if not self.quiet:
             print(f"[{time.monotonic() - self.start:6.1f} s] {message}", file=sys.stderr,
                   flush=True)
@@ -116,8 +118,10 @@ def _case_parent(common: argparse.ArgumentParser, response_help: str) -> argpars
     with_case.add_argument("case", metavar="CASE",
                            help="a case file (path) or the name of a bundled case, e.g. dimer")
     with_case.add_argument("--response", "-r", metavar="LABEL", help=response_help)
-    with_case.add_argument("--budget", type=_positive_float, metavar="SECONDS", default=600.0,
-                           help="time limit of each derivation (default: 600)")
+    with_case.add_argument("--budget", type=_positive_float, metavar="SECONDS",
+                           default=DEFAULT_SECONDS,
+                           help="time limit of the whole command: reading, derivation, "
+                                "presentation, printing, writing and checks (default: 600)")
     return with_case
 
 
@@ -279,8 +283,13 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help(sys.stderr)
         return EXIT_BAD_INPUT
     run: Callable[[argparse.Namespace, _Progress], int] = args.run
+    clock = Budget(seconds=getattr(args, "budget", DEFAULT_SECONDS)).start()
     try:
-        return run(args, _Progress(args.quiet))
+        with clock.running():
+            code = run(args, _Progress(args.quiet))
+        for note in clock.notes:
+            print(f"note: {note}", file=sys.stderr)
+        return code
     except InputError as err:
         print(f"error: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT

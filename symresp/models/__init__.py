@@ -3,6 +3,8 @@
 Imports sympy, :mod:`symresp.errors`, :mod:`symresp.conventions`, :mod:`symresp.algebra`.
 """
 
-from ._system import Budget, Clock, System, is_diagonal
+from ._budget import DEFAULT_SECONDS, Budget, Clock, checkpoint, current_clock
+from ._system import System, is_diagonal
 
-__all__ = ["System", "Budget", "Clock", "is_diagonal"]
+__all__ = ["System", "Budget", "Clock", "checkpoint", "current_clock", "DEFAULT_SECONDS",
+           "is_diagonal"]

@@ -1,8 +1,8 @@
 r"""The physical system: Hamiltonian, sites, sector and named observables (layer: models).
 
-Owns :class:`System`, the validated description of a model that every derivation starts from,
-and :class:`Budget`. Imports sympy, :mod:`symresp.errors`, :mod:`symresp.conventions` and
-:mod:`symresp.algebra`.
+Owns :class:`System`, the validated description of a model that every derivation starts from
+(the budget lives in :mod:`._budget`). Imports sympy, :mod:`symresp.errors`,
+:mod:`symresp.conventions` and :mod:`symresp.algebra`.
 
 A *sector* restricts the Hilbert space to a joint eigenspace of operators that commute with H
 and are diagonal in the product basis (particle numbers, total :math:`S^z`, ...): the
@@ -11,7 +11,6 @@ canonical ensemble at fixed values of those quantities.
 
 from __future__ import annotations
 
-import time
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 
@@ -19,65 +18,9 @@ import sympy as sp
 
 from ..algebra import Basis, Operator, Site, as_operator, commutator, dagger, sparse_form
 from ..conventions import RESERVED_NAMES
-from ..errors import BudgetExceeded, InputError, NotConservedError, NotHermitianError
+from ..errors import InputError, NotConservedError, NotHermitianError
 
-__all__ = ["System", "Budget", "is_diagonal"]
-
-
-@dataclass(frozen=True, slots=True)
-class Budget:
-    """Limits on the expensive steps of a derivation.
-
-    Parameters
-    ----------
-    seconds : float
-        Wall-clock limit for the whole derivation.
-    max_symbolic_block : int
-        Largest block whose entries mix several parameters (no common scale) that is solved
-        symbolically.
-    max_block : int
-        Largest block solved exactly at all.
-
-    Examples
-    --------
-    >>> from symresp.models import Budget
-    >>> Budget().seconds
-    600.0
-    """
-
-    seconds: float = 600.0
-    max_symbolic_block: int = 12
-    max_block: int = 400
-
-    def __post_init__(self) -> None:
-        if not (isinstance(self.seconds, (int, float)) and self.seconds > 0):
-            raise InputError(f"Budget: seconds={self.seconds!r} must be a positive number")
-        for name in ("max_symbolic_block", "max_block"):
-            v = getattr(self, name)
-            if not isinstance(v, int) or v < 1:
-                raise InputError(f"Budget: {name}={v!r} must be a positive integer")
-
-    def start(self) -> Clock:
-        """A running clock for one derivation."""
-        return Clock(self, time.monotonic() + float(self.seconds))
-
-
-@dataclass(frozen=True, slots=True)
-class Clock:
-    """A budget with its deadline; ``check`` raises BudgetExceeded once the deadline passes."""
-
-    budget: Budget
-    deadline: float
-
-    def check(self, step: str, where: str = "") -> None:
-        """Raise :class:`BudgetExceeded` naming ``step`` and ``where`` if time is up."""
-        if time.monotonic() > self.deadline:
-            at = f" in {where}" if where else ""
-            raise BudgetExceeded(
-                f"the derivation ran out of its time budget ({self.budget.seconds:g} s) during "
-                f"{step}{at}; raise Budget(seconds=...) or reduce the model (symmetry sector, "
-                f"fewer sites, numeric values for some parameters)"
-            )
+__all__ = ["System", "is_diagonal"]
 
 
 def is_diagonal(op: Operator) -> bool:

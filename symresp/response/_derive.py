@@ -30,8 +30,8 @@ import sympy as sp
 
 from ..algebra import Operator, sparse_form
 from ..conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
-from ..errors import InputError
-from ..models import Budget, System
+from ..errors import BudgetExceeded, InputError
+from ..models import Budget, Clock, System, current_clock
 from ..spectrum import LevelRoot, Spectrum, clean, is_zero_number, solve
 from ._present import boltzmann_form, hyperbolic_ratio, merge_exponentials
 
@@ -88,8 +88,51 @@ def _hyperbolic_form(n: sp.Expr, d: sp.Expr) -> sp.Expr | None:
     return None
 
 
+#: Share of the time left that presenting one formula may use before the plain form is kept.
+PRESENT_SHARE = 0.25
+
+
 def present(expr: sp.Expr, *, max_ops: int = 400) -> sp.Expr:
-    """Presentable form: common denominator and factored pieces, for expressions of moderate size."""
+    """Presentable form: common denominator and factored pieces, for expressions of moderate size.
+
+    Inside a budgeted call, presenting one formula may take :data:`PRESENT_SHARE` of the time
+    left; beyond that the formula is kept as it is (the plain Lehmann sum) and the clock
+    records a note saying so.
+    """
+    return _within_share(lambda: _present_now(expr, max_ops), expr)
+
+
+def _within_share(work, plain: sp.Expr) -> sp.Expr:
+    """``work()``, or ``plain`` with a note when it would use more than its share of time."""
+    clock = current_clock()
+    if clock is None:
+        return work()
+    part = clock.portion(PRESENT_SHARE, "presenting a formula")
+    try:
+        with part.running():
+            return work()
+    except BudgetExceeded as err:
+        if not Clock.is_fallback(err, part):
+            raise
+    clock.note("a formula took longer to present than its share of the time budget and is "
+               "printed in its plain (unfactored Lehmann) form; raise --budget for the "
+               "factored form")
+    return plain
+
+
+def _larger_than(expr: sp.Expr, nodes: int) -> bool:
+    """True when ``expr`` has more than ``nodes`` nodes (stops counting there: cheap)."""
+    for k, _ in enumerate(sp.preorder_traversal(expr)):
+        if k >= nodes:
+            return True
+    return False
+
+
+def _present_now(expr: sp.Expr, max_ops: int) -> sp.Expr:
+    # count_ops is slow on very large sums (it builds a symbol per operation): a bounded node
+    # count screens them out first.
+    if _larger_than(expr, 20 * max_ops):
+        return expr
     if expr.has(sp.CRootOf, LevelRoot) or sp.count_ops(expr) > max_ops:
         return expr
     if any(p.exp.is_Rational and not p.exp.is_Integer and not p.base.free_symbols
@@ -130,6 +173,7 @@ class Derivation:
     level_weights: dict                             # (a, b) -> W_ab  (a, b level indices)
     expect_A: dict                                  # a -> Tr(P_a A)
     expect_B: dict
+    budget: Budget = Budget()                       # the limits of every later call on it
     _memo: dict = field(default_factory=dict, compare=False, repr=False)
 
     # ------------------------------------------------------------ thermodynamics
@@ -150,7 +194,8 @@ class Derivation:
             return memo
         Eref = self.levels[self.reference].energy
         Zr = self.reduced_partition()
-        nice = None if Zr.has(sp.CRootOf, LevelRoot) else boltzmann_form(Zr)
+        nice = None if Zr.has(sp.CRootOf, LevelRoot) else _within_share(
+            lambda: boltzmann_form(Zr), None)
         out = sp.exp(-beta * Eref) * (Zr if nice is None else nice)
         out = out if nice is None else merge_exponentials(out)
         self._memo["partition"] = out
@@ -423,31 +468,38 @@ def derive(system: System, A: Operator, B: Operator, *, convention: Convention =
     >>> d.static("isothermal"), d.static("isolated")
     (beta/4, 0)
     """
-    clock = budget.start()
-    system = system.with_sites(A.sites | B.sites)
-    spec = solve(system, clock=clock, max_symbolic_block=budget.max_symbolic_block,
-                 max_block=budget.max_block, symmetry=symmetry)
-    basis = spec.structure.basis
-    As, Bs = sparse_form(A, basis), sparse_form(B, basis)
-    W = spec.weights(As, Bs, clock)
-    levels, part_level = _group_levels(spec)
-    lw: dict[tuple[int, int], sp.Expr] = {}
-    for (pa, pb), w in W.items():
-        key = (part_level[pa], part_level[pb])
-        lw[key] = lw.get(key, sp.Integer(0)) + w
-    lw = {k: (clean(v) if not (levels[k[0]].implicit or levels[k[1]].implicit) else v)
-          for k, v in lw.items()}
-    lw = {k: v for k, v in lw.items() if v != 0}
+    if not isinstance(budget, Budget):
+        raise InputError(f"derive: budget={budget!r} must be a symresp.models.Budget")
+    with budget.start().running() as clock:
+        clock.check("solving the model")
+        system = system.with_sites(A.sites | B.sites)
+        spec = solve(system, clock=clock, max_symbolic_block=budget.max_symbolic_block,
+                     max_block=budget.max_block, symmetry=symmetry)
+        basis = spec.structure.basis
+        As, Bs = sparse_form(A, basis), sparse_form(B, basis)
+        W = spec.weights(As, Bs, clock)
+        levels, part_level = _group_levels(spec)
+        lw: dict[tuple[int, int], sp.Expr] = {}
+        for (pa, pb), w in W.items():
+            key = (part_level[pa], part_level[pb])
+            lw[key] = lw.get(key, sp.Integer(0)) + w
+        tidy: dict[tuple[int, int], sp.Expr] = {}
+        for k, v in lw.items():
+            clock.check("tidying the transition weights", f"levels {k[0]} -> {k[1]}")
+            v = clean(v) if not (levels[k[0]].implicit or levels[k[1]].implicit) else v
+            if v != 0:
+                tidy[k] = v
+        lw = tidy
 
-    def level_expect(ex: dict[int, sp.Expr]) -> dict[int, sp.Expr]:
-        out: dict[int, sp.Expr] = {}
-        for p, v in ex.items():
-            out[part_level[p]] = out.get(part_level[p], sp.Integer(0)) + v
-        return {k: v for k, v in out.items() if sp.expand(v) != 0}
+        def level_expect(ex: dict[int, sp.Expr]) -> dict[int, sp.Expr]:
+            out: dict[int, sp.Expr] = {}
+            for p, v in ex.items():
+                out[part_level[p]] = out.get(part_level[p], sp.Integer(0)) + v
+            return {k: v for k, v in out.items() if sp.expand(v) != 0}
 
-    eA = level_expect(spec.expectations(As))
-    eB = level_expect(spec.expectations(Bs))
-    ranks = _level_ranks(levels, system.parameters)
-    ref = min(ranks, key=ranks.__getitem__)
-    return Derivation(system, A, B, convention, spec, tuple(levels), ref, lw, eA, eB,
-                      {"order": ranks})
+        eA = level_expect(spec.expectations(As))
+        eB = level_expect(spec.expectations(Bs))
+        ranks = _level_ranks(levels, system.parameters)
+        ref = min(ranks, key=ranks.__getitem__)
+        return Derivation(system, A, B, convention, spec, tuple(levels), ref, lw, eA, eB, budget,
+                          {"order": ranks})

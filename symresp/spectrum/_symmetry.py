@@ -45,6 +45,7 @@ import flint
 import sympy as sp
 
 from ..algebra import Basis, Operator, SparseForm, dagger, sparse_form
+from ..models import checkpoint
 
 __all__ = ["Sector", "Operation", "Symmetries", "SECTOR_NAMES", "find_symmetries", "split_block",
            "transform", "decompose_entries", "fermion_orbitals", "mode_permutation", "particle_hole"]
@@ -298,6 +299,8 @@ def _total_spin(basis: Basis) -> dict[tuple[int, int], sp.Expr] | None:
     n = len(sites)
     amp: dict[Fraction, sp.Expr] = {}
     for r, st in enumerate(basis.states):
+        if r % 256 == 0:
+            checkpoint("finding the total-spin symmetry", f"state {r} of {len(basis.states)}")
         m = [S - k for S, k in zip(spins, st)]
         total = sum(m, Fraction(0))
         d = const + total * total - sum((x * x for x in m), Fraction(0))
@@ -382,12 +385,15 @@ def transform(blk: dict, left: flint.fmpq_mat | None, right: flint.fmpq_mat | No
         return dict(blk)
     out: dict[tuple[int, int], sp.Expr] = {}
     for atom, comp in decompose_entries(blk).items():
+        checkpoint("carrying the Hamiltonian into a symmetry sector", f"size {shape[0]}")
         X = _sparse_fmpq(comp, *shape)
         if left is not None:
             X = left * X
         if right is not None:
             X = X * right
         for i in range(X.nrows()):
+            if i % 64 == 0:
+                checkpoint("carrying the Hamiltonian into a symmetry sector", f"size {shape[0]}")
             for j in range(X.ncols()):
                 v = X[i, j]
                 if v != 0:
@@ -502,6 +508,7 @@ def _split_by_involution(sectors: list, U: flint.fmpq_mat, name: str) -> list | 
     """Each sector split into U = +1 and U = -1 (None if U does not keep every sector)."""
     new = []
     for labels, V, dual in sectors:
+        checkpoint("symmetry sectors", f"operation {name}")
         W = U * V
         Us = dual * W
         if V * Us != W:
@@ -527,6 +534,7 @@ def _split_by_involution(sectors: list, U: flint.fmpq_mat, name: str) -> list | 
 def _split_by_spin(sectors: list, S2: flint.fmpq_mat) -> list:
     new = []
     for labels, V, dual in sectors:
+        checkpoint("total-spin sectors")
         S2s = dual * S2 * V
         values = _eigenvalues(S2s)
         if values is None:
@@ -539,6 +547,7 @@ def _split_by_spin(sectors: list, S2: flint.fmpq_mat) -> list:
         for c in values:
             Q = _scalar(m, Fraction(1))
             for c2 in values:
+                checkpoint("total-spin projectors")
                 if c2 != c:
                     gap = c - c2
                     Q = Q * (S2s - _scalar(m, c2)) * flint.fmpq(gap.denominator, gap.numerator)
@@ -594,6 +603,7 @@ def split_block(positions: tuple[int, ...], sym: Symmetries, Hb: dict,
     if T is not None:
         new = []
         for d, e in _cyclotomic_idempotents(sym.order):
+            checkpoint("ring-translation sectors")
             vd = _column_basis(_polynomial_of(T, e))
             if vd is not None:
                 new.append(((("k", _momentum_label(d, sym.order)),), *vd))
