@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import cmath
 import types
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from typing import Literal
 
 import numpy as np
@@ -47,6 +47,10 @@ class Model:
         Named operators, usable by name in :meth:`response`.
     name : str
         Label for summaries and emitted code.
+    parameters : sequence of Symbol (or names), optional
+        The order of the parameters: emitted evaluators take them in this order, and
+        :attr:`parameters` lists them so. It must list every symbol of H and of the
+        observables. Default: sorted by name.
 
     Raises
     ------
@@ -75,14 +79,22 @@ class Model:
     __slots__ = ("_system",)
 
     def __init__(self, H: object, *, sector: Mapping | None = None,
-                 observables: Mapping[str, object] | None = None, name: str = "model") -> None:
+                 observables: Mapping[str, object] | None = None, name: str = "model",
+                 parameters: Sequence | None = None) -> None:
         if sector is not None and not isinstance(sector, Mapping):
             raise InputError(f"Model: sector={sector!r} must be a mapping {{operator: value}}")
         if observables is not None and not isinstance(observables, Mapping):
             raise InputError(f"Model: observables={observables!r} must be a mapping {{name: operator}}")
         if not isinstance(name, str):
             raise InputError(f"Model: name={name!r} must be a string")
-        self._system = System.build(H, sector=sector, observables=observables, name=name)
+        self._system = System.build(H, sector=sector, observables=observables, name=name,
+                                    parameters=parameters)
+        if parameters is not None:
+            listed = {p.name if isinstance(p, sp.Symbol) else p for p in parameters}
+            unknown = sorted(listed - {p.name for p in self._system.parameters})
+            if unknown:
+                raise InputError(f"Model: parameters lists {', '.join(map(repr, unknown))}, which "
+                                 f"appear(s) neither in H nor in the observables")
 
     @classmethod
     def _from_system(cls, system: System) -> Model:
@@ -108,7 +120,7 @@ class Model:
 
     @property
     def parameters(self) -> tuple[sp.Symbol, ...]:
-        """Symbolic parameters, sorted by name."""
+        """Symbolic parameters, in the declared order (``parameters=``; default: by name)."""
         return self._system.parameters
 
     @property

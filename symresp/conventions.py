@@ -33,6 +33,9 @@ antiferromagnetic): :math:`\chi = \chi_0/(1 + zJ'\chi_0/(N_A\mu_B^2 g^2))`.
 
 from __future__ import annotations
 
+import keyword
+import re
+import unicodedata
 from dataclasses import dataclass
 from typing import Literal
 
@@ -48,6 +51,8 @@ __all__ = [
     "T",
     "nu",
     "RESERVED_NAMES",
+    "MAX_NAME_LENGTH",
+    "name_problem",
     "Convention",
     "DEFAULT_CONVENTION",
 ]
@@ -65,8 +70,54 @@ T = sp.Symbol("T", positive=True)
 #: Bosonic Matsubara frequency :math:`\nu_n = 2\pi n/\beta`.
 nu = sp.Symbol("nu", real=True)
 
-#: Names a model parameter may not take.
-RESERVED_NAMES = frozenset({"beta", "omega", "t", "eta", "T", "nu", "I", "E", "pi", "oo"})
+#: Names a model parameter may not take: the temperature, frequency and time symbols, and the
+#: imaginary unit, pi and infinity of the formula language. (``E``, the usual name of a
+#: rhombic anisotropy, is a legal parameter; Euler's number is ``exp(1)`` in formulas.)
+RESERVED_NAMES = frozenset({"beta", "omega", "t", "eta", "T", "nu", "I", "pi", "oo"})
+#: Longest parameter, site or observable name.
+MAX_NAME_LENGTH = 64
+
+
+def name_problem(name: object, what: str = "name") -> str | None:
+    """Why ``name`` cannot name a parameter, site or observable, or None when it can.
+
+    A legal name is an ASCII identifier of at most :data:`MAX_NAME_LENGTH` characters, not a
+    Python keyword, not a dunder (``__x__``) and not in :data:`RESERVED_NAMES`. Unicode text
+    is refused with its NFKC normal form named when that is ASCII (``'ﬁ'`` reads as ``'fi'``).
+
+    Examples
+    --------
+    >>> from symresp.conventions import name_problem
+    >>> name_problem("J1") is None, name_problem("E") is None
+    (True, True)
+    >>> name_problem("lambda")
+    "'lambda' is a Python keyword; use e.g. 'lambda_'"
+    """
+    if not isinstance(name, str):
+        return f"a {what} must be a string, got {type(name).__name__}"
+    if not name:
+        return f"the {what} is empty"
+    if len(name) > MAX_NAME_LENGTH:
+        return f"the {what} {name[:20]!r}... has {len(name)} characters, more than {MAX_NAME_LENGTH}"
+    if not name.isascii():
+        normal = unicodedata.normalize("NFKC", name)
+        hint = (f" (it reads as {normal!r} after Unicode normalisation: write that)"
+                if normal != name and normal.isascii() and _IDENTIFIER.fullmatch(normal) else "")
+        return f"{name!r} is not ASCII: names use the letters A-Z, a-z, digits and '_'{hint}"
+    if not _IDENTIFIER.fullmatch(name):
+        return (f"{name!r} is not a valid {what}: use ASCII letters, digits and '_', starting "
+                f"with a letter or '_'")
+    if keyword.iskeyword(name):
+        return f"{name!r} is a Python keyword; use e.g. '{name}_'"
+    if name.startswith("__") and name.endswith("__"):
+        return f"{name!r} is a dunder name (reserved by Python); drop the double underscores"
+    if name in RESERVED_NAMES:
+        return (f"{name!r} is reserved for the temperature, frequency and time symbols and the "
+                f"constants of formulas ({', '.join(sorted(RESERVED_NAMES))}); rename it")
+    return None
+
+
+_IDENTIFIER = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 
 PerturbationSign = Literal["H0 - f B", "H0 + f B"]
 Prescription = Literal["retarded", "advanced"]

@@ -7,7 +7,8 @@ from ._closure import MAX_COMMUTATORS, MAX_SPACE_DIMENSION, OperatorSpace, close
 from ._constructors import (MAX_CUTOFF, MAX_LEVELS, MAX_SPIN, LevelSite, SpinSite, SpinVector,
                             boson, describe, fermion, nlevel, spin, spinful_fermion)
 from ._matrix import MAX_DIMENSION, Basis, SparseForm, sparse_form, to_array, to_sympy_matrix
-from ._operators import Monomial, Operator, anticommutator, as_coefficient, as_operator, commutator, dagger
+from ._operators import (Monomial, Operator, anticommutator, as_coefficient, as_operator, commutator,
+                         dagger, exact_decimal)
 from ._sites import Site, local_parity
 
 __all__ = [
@@ -16,4 +17,5 @@ __all__ = [
     "SpinSite", "LevelSite", "describe", "SpinVector", "MAX_SPIN", "MAX_LEVELS", "MAX_CUTOFF",
     "Basis", "SparseForm", "sparse_form", "to_sympy_matrix", "to_array", "MAX_DIMENSION",
     "OperatorSpace", "close_under", "coordinates", "MAX_SPACE_DIMENSION", "MAX_COMMUTATORS",
+    "exact_decimal",
 ]

@@ -33,14 +33,40 @@ from ..errors import InputError
 from ._sites import LocalKey, Site, local_parity
 
 __all__ = ["Operator", "Monomial", "as_coefficient", "as_operator", "dagger", "commutator",
-           "anticommutator"]
+           "anticommutator", "exact_decimal"]
 
 Monomial = tuple[tuple[Site, LocalKey], ...]
 Scalar = Union[int, Fraction, sp.Expr]
 
 
+def exact_decimal(value: float, *, where: str = "number") -> sp.Rational:
+    """The exact rational of a float: the shortest decimal that rounds to it (``repr``).
+
+    This is the one rule by which symresp turns floating-point input into exact numbers:
+    ``2.0023`` becomes ``20023/10000`` and ``0.1`` becomes ``1/10``, the numbers the user
+    typed, not the binary approximations a float holds. A sympy ``Float`` is first rounded
+    to a Python float (15-17 significant digits). NaN and infinities raise InputError.
+
+    Examples
+    --------
+    >>> from symresp.algebra import exact_decimal
+    >>> exact_decimal(2.0023), exact_decimal(0.1), exact_decimal(1e-30)
+    (20023/10000, 1/10, 1/1000000000000000000000000000000)
+    """
+    x = float(value)
+    if not math.isfinite(x):
+        raise InputError(f"{where}: {value!r} is not a finite number")
+    f = Fraction(repr(x))
+    return sp.Rational(f.numerator, f.denominator)
+
+
+def _exact_floats(expr: sp.Expr, where: str) -> sp.Expr:
+    return expr.xreplace({f: exact_decimal(f, where=where) for f in expr.atoms(sp.Float)})
+
+
 def as_coefficient(value: object, *, where: str = "coefficient") -> sp.Expr:
-    """Convert an exact scalar to a sympy expression; floats and unknown objects raise InputError."""
+    """Convert a scalar to an exact sympy expression; floats become the decimals they print
+    as (:func:`exact_decimal`); other objects raise InputError."""
     if isinstance(value, bool):
         raise InputError(f"{where}: {value!r} is a bool, not a number")
     if isinstance(value, int):
@@ -48,20 +74,16 @@ def as_coefficient(value: object, *, where: str = "coefficient") -> sp.Expr:
     if isinstance(value, Fraction):
         return sp.Rational(value.numerator, value.denominator)
     if isinstance(value, float):
-        raise InputError(
-            f"{where}: {value!r} is a float; symresp works with exact numbers. "
-            f"Write sympy.Rational(...) or sympy.nsimplify({value!r}) instead"
-        )
+        return exact_decimal(value, where=where)
     if isinstance(value, complex):
-        raise InputError(f"{where}: {value!r} is a complex float; write a + b*sympy.I exactly")
+        return exact_decimal(value.real, where=where) + sp.I * exact_decimal(value.imag, where=where)
     if isinstance(value, sp.Basic):
         if not isinstance(value, sp.Expr):
             raise InputError(f"{where}: {value!r} is not a scalar expression")
         if value.has(sp.Float):
-            raise InputError(
-                f"{where}: {value} contains a floating-point number; use exact rationals "
-                f"(sympy.Rational or sympy.nsimplify)"
-            )
+            value = _exact_floats(value, where)
+        if value.has(sp.nan, sp.zoo, sp.oo, -sp.oo):
+            raise InputError(f"{where}: {value} is not a finite number")
         return value
     raise InputError(f"{where}: cannot use {value!r} (type {type(value).__name__}) as a scalar")
 

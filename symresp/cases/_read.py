@@ -45,7 +45,7 @@ import sympy as sp
 
 from ..algebra import (MAX_CUTOFF, MAX_DIMENSION, MAX_LEVELS, MAX_SPIN, LevelSite, Operator,
                        SpinSite, boson, fermion, nlevel, spin)
-from ..conventions import RESERVED_NAMES
+from ..conventions import name_problem
 from ..emit import temperature_unit_name
 from ..errors import InputError, NotConservedError, NotHermitianError
 from ..models import System
@@ -77,7 +77,7 @@ _MODEL_KEYS = ("name", "description", "hamiltonian", "energy_unit", "temperature
 _PARAMETER_KEYS = ("assume", "value", "unit", "description")
 _RESPONSE_KEYS = ("label", "A", "B", "quantities")
 _SECTOR_KEYS = ("operator", "value")
-_NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 
 
 @dataclass(frozen=True, slots=True)
@@ -413,7 +413,8 @@ class _Reader:
         all_sites = [s for h in site_scope.values() for s in _sites_of(h)]
         try:
             system = System.build(H, sector=dict(sector), observables=dict(observables),
-                                  extra_sites=all_sites, name=name.strip())
+                                  extra_sites=all_sites, name=name.strip(),
+                                  parameters=[p.symbol for p in parameters])
         except NotHermitianError as err:
             raise self.fail("[model] hamiltonian", f"{err} In a case file, add the conjugate "
                                                    f"terms with adj(...).",
@@ -490,16 +491,12 @@ class _Reader:
         return out
 
     def check_name(self, name: str, where: str, place: KeyPlace | None, what: str) -> None:
-        if not _NAME.match(name):
-            raise self.fail(where, f"'{name}' is not a valid {what} name: use ASCII letters, "
-                                   f"digits and '_', starting with a letter", place)
         if name in RESERVED_WORDS:
             raise self.fail(where, f"the {what} name '{name}' is a word of the formula language "
                                    f"({', '.join(sorted(RESERVED_WORDS))}); rename it", place)
-        if name in RESERVED_NAMES:
-            raise self.fail(where, f"the {what} name '{name}' is reserved for temperature, "
-                                   f"frequency and time symbols ({', '.join(sorted(RESERVED_NAMES))}); "
-                                   f"rename it", place)
+        problem = name_problem(name, f"{what} name")
+        if problem:
+            raise self.fail(where, problem, place)
 
     def sites(self, table: dict, parameter_names: set[str]) -> tuple[list[SiteSpec], dict[str, object]]:
         if not table:
@@ -652,7 +649,7 @@ class _Reader:
             a_text = self.string(item, "A", ("response",), where, required=True, index=i)
             b_text = self.string(item, "B", ("response",), where, index=i, default=a_text)
             same = a_text.strip() == b_text.strip()
-            default_label = a_text.strip() if same and _NAME.match(a_text.strip()) else f"response{i + 1}"
+            default_label = a_text.strip() if same and _NAME.fullmatch(a_text.strip()) else f"response{i + 1}"
             label = self.string(item, "label", ("response",), where, index=i,
                                 default=default_label).strip()
             if not label:

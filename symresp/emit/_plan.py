@@ -32,6 +32,7 @@ Imports: sympy, :mod:`symresp.errors`, :mod:`symresp.response`, :mod:`symresp.sp
 
 from __future__ import annotations
 
+import builtins
 import hashlib
 import keyword
 import re
@@ -47,8 +48,16 @@ __all__ = ["Plan", "Pair", "Group", "RootSet", "build_plan", "fingerprint", "is_
 
 #: Names a parameter may not take in the generated code (independent variables, modules,
 #: keywords of the generated functions).
-_TAKEN = frozenset({"T", "omega", "t", "eta", "kind", "shape", "numpy", "math", "np", "grid",
-                    "ps", "scalar", "values", "value"})
+#: Names a parameter may not have inside the emitted code (kernels and drivers): arguments and
+#: locals of the drivers, the modules, every Python builtin and the module's public names.
+#: A parameter with such a name is renamed inside (``float`` -> ``float_``); the public
+#: functions still take it under its own name (see ``_numpy_module.py``).
+PUBLIC_NAMES = ("chi_isothermal", "chi_isolated", "chi_static", "jacobian_static", "chi_omega",
+                "chi_spectral", "chi_time", "energies")
+_TAKEN = frozenset({"T", "omega", "t", "eta", "kind", "shape", "numpy", "math", "cmath", "np",
+                    "grid", "ps", "scalar", "values", "value", "SYMRESP_VERSION", "CONVENTION",
+                    "FINGERPRINT", "MODEL", "PARAMETERS", "DEGENERACIES", "ENERGIES"}
+                   | set(dir(builtins)) | set(PUBLIC_NAMES))
 #: Digits of the numeric keys used to find candidate equal spacings before an exact check.
 _KEY_DIGITS = 25
 #: |value| below which a high-precision evaluation counts as an exact zero.
@@ -165,18 +174,25 @@ def _tidy(expr: sp.Expr, implicit: bool) -> sp.Expr:
 
 
 def _safe_names(symbols: tuple[sp.Symbol, ...]) -> tuple[sp.Symbol, ...]:
-    """Python identifiers for the parameters, as close to the physics names as possible."""
-    used: set[str] = set()
+    """Python identifiers for the parameters inside the emitted code, as close to the physics
+    names as possible and distinct from every name the code itself uses (:data:`_TAKEN`)."""
+
+    def fits(name: str) -> bool:
+        return (name.isidentifier() and name.isascii() and not name.startswith("_")
+                and not keyword.iskeyword(name) and name not in _TAKEN)
+
+    used = {s.name for s in symbols if fits(s.name)}
     out = []
     for s in symbols:
-        name = re.sub(r"\W", "_", s.name)
-        if not name or name[0].isdigit() or name.startswith("_"):
-            name = "p" + name
-        if keyword.iskeyword(name) or name in _TAKEN:
+        name = s.name
+        if not fits(name):
+            name = re.sub(r"\W", "_", name.encode("ascii", "backslashreplace").decode())
+            if not name or name[0].isdigit() or name.startswith("_"):
+                name = "p" + name
             name += "_"
-        while name in used:
-            name += "_"
-        used.add(name)
+            while not fits(name) or name in used:
+                name += "_"
+            used.add(name)
         out.append(sp.Symbol(name, **s.assumptions0))
     return tuple(out)
 
@@ -204,7 +220,9 @@ def build_plan(d: Derivation) -> Plan:
         symbols |= lv.energy.free_symbols
     for v in (*d.level_weights.values(), *d.expect_A.values(), *d.expect_B.values()):
         symbols |= sp.sympify(v).free_symbols  # safe: derivation values are already sympy objects
-    original = tuple(sorted(symbols, key=lambda s: s.name))
+    # Declared order (case file, or parameters= of the API), then any other symbol by name.
+    declared = tuple(p for p in d.system.parameters if p in symbols)
+    original = declared + tuple(sorted(symbols - set(declared), key=lambda s: s.name))
     for lv in levels:
         for r in lv.energy.atoms(LevelRoot):
             if len(r.args) != 1 + 1 + _ROOT_DEGREE:

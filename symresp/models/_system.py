@@ -13,11 +13,13 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
+from fractions import Fraction
 
 import sympy as sp
 
-from ..algebra import Basis, Operator, Site, as_operator, commutator, dagger, sparse_form
-from ..conventions import RESERVED_NAMES
+from ..algebra import (Basis, Operator, Site, as_coefficient, as_operator, commutator, dagger,
+                       sparse_form)
+from ..conventions import name_problem
 from ..errors import InputError, NotConservedError, NotHermitianError
 
 __all__ = ["System", "is_diagonal"]
@@ -33,12 +35,54 @@ def is_diagonal(op: Operator) -> bool:
 
 
 def _check_parameters(symbols: Iterable[sp.Symbol], where: str) -> None:
-    for s in symbols:
-        if s.name in RESERVED_NAMES:
+    seen: dict[str, sp.Symbol] = {}
+    for s in sorted(symbols, key=lambda x: (x.name, str(x.assumptions0))):
+        problem = name_problem(s.name, "parameter name")
+        if problem:
+            raise InputError(f"{where}: parameter {problem}")
+        other = seen.get(s.name)
+        if other is not None and other != s:
             raise InputError(
-                f"{where}: the parameter name {s.name!r} is reserved by symresp "
-                f"(reserved: {', '.join(sorted(RESERVED_NAMES))}); rename it"
-            )
+                f"{where}: two different parameters are both named {s.name!r} (declared with "
+                f"different assumptions: {_assumptions(other)} and {_assumptions(s)}); use one "
+                f"symbol, e.g. sympy.Symbol({s.name!r}, real=True), everywhere")
+        seen[s.name] = s
+
+
+def _assumptions(s: sp.Symbol) -> str:
+    keys = [k for k in ("positive", "nonnegative", "real") if s.assumptions0.get(k)]
+    return ", ".join(f"{k}=True" for k in keys[:1]) or "no assumptions"
+
+
+def _parameter_order(order: object, used: set[sp.Symbol], where: str) -> tuple[sp.Symbol, ...]:
+    """The declared order of the parameters, checked against the symbols the model uses."""
+    if order is None:
+        return ()
+    if isinstance(order, (str, sp.Basic)) or not isinstance(order, Iterable):
+        raise InputError(f"{where}: parameters={order!r} must be a sequence of sympy Symbols (or "
+                         f"their names), e.g. parameters=(J, h)")
+    by_name = {s.name: s for s in used}
+    out: list[sp.Symbol] = []
+    for item in order:
+        name = item.name if isinstance(item, sp.Symbol) else item
+        if not isinstance(name, str):
+            raise InputError(f"{where}: parameters: {item!r} is not a sympy Symbol or a name")
+        if name in (p.name for p in out):
+            raise InputError(f"{where}: parameters: {name!r} is listed twice")
+        sym = by_name.get(name)
+        if sym is None:
+            if isinstance(item, sp.Symbol):
+                problem = name_problem(name, "parameter name")
+                if problem:
+                    raise InputError(f"{where}: parameters: {problem}")
+            continue                       # declared but unused: no place in the evaluators
+        out.append(sym)
+    missing = sorted(s.name for s in used if s not in out)
+    if missing:
+        raise InputError(f"{where}: parameters={tuple(p.name for p in out)!r} does not list "
+                         f"{', '.join(missing)}; list every parameter of the model, in the order "
+                         f"the evaluators should take them")
+    return tuple(out)
 
 
 @dataclass(frozen=True, slots=True)
@@ -57,6 +101,9 @@ class System:
         Sites that belong to the model although H may not touch them.
     name : str
         A label used in summaries and emitted code.
+    order : tuple of Symbol
+        The declared order of the parameters (case-file order, or ``parameters=`` of the
+        API); empty for the default order, sorted by name.
     """
 
     hamiltonian: Operator
@@ -64,12 +111,13 @@ class System:
     observables: tuple[tuple[str, Operator], ...] = ()
     extra_sites: tuple[Site, ...] = ()
     name: str = "model"
+    order: tuple[sp.Symbol, ...] = ()      # declared parameter order (empty: by name)
     _memo: dict = field(default_factory=dict, compare=False, repr=False, hash=False)
 
     @classmethod
     def build(cls, hamiltonian: object, *, sector: Mapping | None = None,
               observables: Mapping[str, object] | None = None, extra_sites: Iterable[Site] = (),
-              name: str = "model") -> System:
+              name: str = "model", parameters: Iterable | None = None) -> System:
         """Validate the inputs and build a System (see the class docstring)."""
         if isinstance(hamiltonian, (list, tuple, dict, str)):
             raise InputError(
@@ -81,9 +129,12 @@ class System:
             _raise_not_hermitian(H)
         obs: list[tuple[str, Operator]] = []
         for key, val in (observables or {}).items():
-            if not isinstance(key, str) or not key.isidentifier():
-                raise InputError(f"Model: observable name {key!r} must be an identifier")
-            obs.append((key, as_operator(val)))
+            problem = name_problem(key, "observable name")
+            if problem:
+                raise InputError(f"Model: observable {problem}")
+            o = as_operator(val)
+            _check_parameters(o.free_symbols | H.free_symbols, f"Model: observable {key!r}")
+            obs.append((key, o))
         sec: list[tuple[Operator, sp.Expr]] = []
         for q, val in (sector or {}).items():
             Q = as_operator(q)
@@ -97,18 +148,24 @@ class System:
                     f"Model: sector operator {Q} does not commute with the Hamiltonian, so its "
                     f"eigenvalue cannot be fixed; choose a conserved quantity"
                 )
-            try:
-                v = sp.nsimplify(val) if isinstance(val, float) else sp.sympify(val, strict=True)  # safe: number from Python code, strict mode
-            except (sp.SympifyError, TypeError):
-                raise InputError(f"Model: sector value {val!r} is not a number") from None
+            if isinstance(val, str) or not isinstance(val, (int, float, Fraction, sp.Expr)):
+                raise InputError(f"Model: sector value {val!r} is not a number; give an int, a "
+                                 f"float or a sympy number")
+            v = as_coefficient(val, where="Model: sector value")
+            if not v.is_number:
+                raise InputError(f"Model: sector value {val!r} is not a number")
             sec.append((Q, v))
         extra = set(extra_sites)
         for _, o in obs:
             extra |= o.sites
         for Q, _ in sec:
             extra |= Q.sites
+        used = set(H.free_symbols)
+        for _, o in obs:
+            used |= o.free_symbols
+        order = _parameter_order(parameters, used, "Model")
         sys_ = cls(H, tuple(sec), tuple(sorted(obs)), tuple(sorted(extra - H.sites, key=lambda s: s.order)),
-                   name)
+                   name, order)
         sys_.check_site_names()
         if sec and sys_.basis().dimension == 0:
             raise InputError(f"Model: the sector {_sector_str(sec)} contains no state")
@@ -132,11 +189,13 @@ class System:
 
     @property
     def parameters(self) -> tuple[sp.Symbol, ...]:
-        """Symbols of H and of the observables, sorted by name."""
+        """Symbols of H and of the observables: in the declared order when there is one
+        (:attr:`order`), otherwise sorted by name."""
         syms = set(self.hamiltonian.free_symbols)
         for _, o in self.observables:
             syms |= o.free_symbols
-        return tuple(sorted(syms, key=lambda s: s.name))
+        first = tuple(s for s in self.order if s in syms)
+        return first + tuple(sorted(syms - set(first), key=lambda s: s.name))
 
     def with_sites(self, sites: Iterable[Site]) -> System:
         """The same system, extended by the sites of ``sites`` (identity on them)."""
@@ -144,7 +203,7 @@ class System:
         if not new:
             return self
         extra = tuple(sorted(set(self.extra_sites) | new, key=lambda s: s.order))
-        out = System(self.hamiltonian, self.sector, self.observables, extra, self.name)
+        out = System(self.hamiltonian, self.sector, self.observables, extra, self.name, self.order)
         out.check_site_names()
         return out
 
@@ -158,7 +217,7 @@ class System:
             keep = list(range(full.dimension))
             for Q, value in self.sector:
                 diag = sparse_form(Q, full)
-                keep = [i for i in keep if sp.simplify(diag.get((i, i), 0) - value) == 0]
+                keep = [i for i in keep if sp.expand(diag.get((i, i), 0) - value) == 0]
             full = full.restrict(keep)
         self._memo["basis"] = full
         return full

@@ -130,7 +130,7 @@ def test_matrix_form_matches_independent_kronecker_products():
     (lambda: sr.spin("1a", 1), "must not start"),
     (lambda: sr.nlevel("q", 1), "from 2"),
     (lambda: sr.boson("x", 0), "cutoff"),
-    (lambda: 0.5 * sr.spin("a", 1).z, "float"),
+    (lambda: float("inf") * sr.spin("a", 1).z, "not a finite number"),
     (lambda: sr.spin("a", 1).z ** -1, "non-negative"),
     (lambda: sr.spin("a", 1).z / sr.spin("b", 1).z, "divide"),
     (lambda: sr.nlevel("q", 3).op(0, 3), "out of range"),
@@ -149,3 +149,13 @@ def test_sector_operator_must_commute_with_h():
         sr.Model(a.x + b.z, sector={a.z + b.z: 0})
     m = sr.Model(a.vec @ b.vec, sector={a.z + b.z: 0})
     assert m.dimension == 2
+
+
+def test_floats_become_the_decimals_they_print_as():
+    # One stated rule (docs/limits.md): a float is the exact rational of its repr.
+    a = sr.spin("a", "1/2")
+    h = sp.Symbol("h", real=True)
+    assert 0.1 * a.z == sp.Rational(1, 10) * a.z
+    assert (2.0023 * h) * a.z == sp.Rational(20023, 10000) * h * a.z
+    assert sr.Model(1e-3 * a.z).hamiltonian == sp.Rational(1, 1000) * a.z
+    assert (0.5 + 0.25j) * a.z == (sp.Rational(1, 2) + sp.I / 4) * a.z
