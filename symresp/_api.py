@@ -8,6 +8,8 @@ imports this module.
 from __future__ import annotations
 
 import cmath
+import math
+import numbers
 import types
 from collections.abc import Mapping, Sequence
 from typing import Literal
@@ -17,7 +19,7 @@ import sympy as sp
 
 from . import numeric
 from ._public import public
-from .algebra import Operator, Site, describe, to_array, to_sympy_matrix
+from .algebra import Operator, Site, describe, exact_decimal, to_array, to_sympy_matrix
 from .cases import find_case, read_case, with_values
 from .checks import Report, Verdict, compare, consistency
 from .emit import latex_document, numpy_functions, numpy_module_source
@@ -238,19 +240,48 @@ class Model:
         return f"Model({self._system.name!r}: {sites}; dimension {self.dimension})"
 
 
+def _is_number(value: object, *, real: bool) -> bool:
+    """A number given from Python code (never a string: text is not evaluated here)."""
+    if isinstance(value, (bool, np.bool_, str, bytes)):
+        return False
+    kinds = (numbers.Real,) if real else (numbers.Complex,)
+    if isinstance(value, kinds):
+        return True
+    return isinstance(value, sp.Expr) and bool(value.is_number) and (not real or bool(value.is_real))
+
+
+def _real_number(value: object, what: str) -> float:
+    """A finite real number from Python code, as a float; strings and other objects raise."""
+    if not _is_number(value, real=True):
+        shown = f"{value!r}" if not isinstance(value, str) else f"the string {value!r}"
+        raise InputError(f"{what}={shown} must be a real number (int or float), not "
+                         f"{type(value).__name__}; text is never evaluated")
+    v = float(value)
+    if not math.isfinite(v):
+        raise InputError(f"{what}={value!r} must be finite")
+    return v
+
+
+def _exact(value: float) -> sp.Rational:
+    """The exact value of a number given as a float: the decimal it prints as."""
+    return exact_decimal(value)
+
+
 def _numeric_params(system: System, params: Mapping | None) -> dict[sp.Symbol, complex]:
     out: dict[sp.Symbol, complex] = {}
+    if params is not None and not isinstance(params, Mapping):
+        raise InputError(f"params={params!r} must be a mapping {{name: number}}")
     by_name = {p.name: p for p in system.parameters}
     for k, v in (params or {}).items():
-        sym = by_name.get(k) if isinstance(k, str) else k
+        sym = by_name.get(k) if isinstance(k, str) else (k if k in system.parameters else None)
         if sym is None:
             known = ", ".join(by_name) or "none"
             raise InputError(f"params: unknown parameter {k!r} (model parameters: {known})")
-        try:
-            val = complex(v)
-        except (TypeError, ValueError):
-            raise InputError(f"params: value {v!r} for {k} is not a number") from None
-        if not np.isfinite(val):
+        if not _is_number(v, real=False):
+            raise InputError(f"params: value {v!r} for {k} is not a number (give an int, float "
+                             f"or complex; text is never evaluated)")
+        val = complex(v)
+        if not cmath.isfinite(val):
             raise InputError(f"params: value {v!r} for {k} is not finite")
         out[sym] = val
     return out
@@ -468,7 +499,8 @@ class Response:
         >>> round(sr.Model(0 * s.z).response(s.z).reference(T=0.5).isothermal.real, 12)
         0.5
         """
-        if not (isinstance(T, (int, float)) and T > 0 and np.isfinite(T)):
+        T = _real_number(T, "reference: T")
+        if not T > 0:
             raise InputError(f"reference: T={T!r} must be a positive finite number")
         system = self._d.system
         p = _numeric_params(system, params)
@@ -628,19 +660,27 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
     missing &= expr.free_symbols
     if missing:
         raise InputError(f"evaluate: give values for {', '.join(sorted(map(str, missing)))} in params=")
-    subs: dict = {k: sp.nsimplify(v.real) if v.imag == 0 else v for k, v in p.items()}
+    subs: dict = {k: _exact(v.real) + (sp.I * _exact(v.imag) if v.imag else 0) for k, v in p.items()}
+    if T is not None:
+        T = _real_number(T, "evaluate: T")
     if expr.has(beta):
         if T is None or not T > 0:
             raise InputError(f"evaluate: T={T!r} must be a positive temperature")
-        subs[beta] = 1 / sp.nsimplify(T)
+        subs[beta] = 1 / _exact(T)
     if quantity == "frequency":
         if omega_value is None:
             raise InputError("evaluate: give omega_value for the 'frequency' quantity")
-        subs[omega] = sp.sympify(complex(omega_value))  # safe: a Python complex number
+        if not _is_number(omega_value, real=False):
+            raise InputError(f"evaluate: omega_value={omega_value!r} must be a number (complex "
+                             f"allowed), not {type(omega_value).__name__}")
+        z = complex(omega_value)
+        if not cmath.isfinite(z):
+            raise InputError(f"evaluate: omega_value={omega_value!r} must be finite")
+        subs[omega] = _exact(z.real) + sp.I * _exact(z.imag)
     if quantity == "time":
         if time_value is None:
             raise InputError("evaluate: give time_value for the 'time' quantity")
-        subs[t] = sp.nsimplify(time_value)
+        subs[t] = _exact(_real_number(time_value, "evaluate: time_value"))
     # Each implicit root is evaluated once (CRootOf isolates its root again on every evalf call).
     subs.update({r: r.evalf(40) for r in expr.atoms(sp.CRootOf)})  # complex ones too
     value = complex(sp.N(expr.xreplace(subs), 30))

@@ -150,7 +150,7 @@ _DOCS = {
     "chi_isolated": r'''Isolated (Kubo) static susceptibility chi(omega -> 0).
 
     chi_isol = sum over pairs of levels that differ in energy of g_ab W_ab; levels closer than
-    1e-9 max(1, max|E|) at the evaluation point count as one level (as in symresp.numeric).
+    1e-9 max|E| at the evaluation point count as one level (relative: the same in any unit).
 
     Parameters
     ----------
@@ -315,7 +315,7 @@ def _glue(plan: Plan, has_time: bool, prefix: str = "") -> list[str]:
                  if eta == "eta" else "")
         return [f"    if (type({x}) is numpy.ndarray and {x}.dtype is _F64"
                 f" and 0 < {x}.size <= _CHUNK_COMPLEX",
-                f"            and type(T) is float and T > 0{finite}{width}):",
+                f"            and type(T) is float and T >= _T_MIN{finite}{width}):",
                 f"        value = {grid}({x}, {eta}, "
                 f"_{kernel}_s(1.0 / T, _stage_p_s(_params_dynamic_s, {floats})))",
                 # Every other argument is a number: an array result has the grid's shape.
@@ -326,8 +326,8 @@ def _glue(plan: Plan, has_time: bool, prefix: str = "") -> list[str]:
         fn(f"def chi_{kind}(T{sig}):", f"chi_{kind}", [
             "    if (type(T) is numpy.ndarray and T.dtype is _F64 and 0 < T.size <= _CHUNK"
             f"{finite}):",
-            "        if not T.item(T.argmin()) > 0:       # argmin finds the first NaN, if any",
-            "            raise ValueError('T must be > 0 (and not nan) everywhere')",
+            "        if not T.item(T.argmin()) >= _T_MIN:  # argmin finds the first NaN, if any",
+            "            _temperature(T)               # raises, naming the bad temperature",
             f"        value = _{kind}_a(T, "
             f"_stage_p_s(_params_{kind}_s, {floats}))",
             # The parameters are numbers: an array result has the shape of T.

@@ -34,25 +34,49 @@ _CHUNK_COMPLEX = 8192
 _TINY = 1e-300
 #: Below this y the series of psi are used (truncation error < 3e-13 relative).
 _SERIES = 1e-2
-#: Level-grouping tolerance of the isolated susceptibility, relative to max(1, max|E|).
+#: Level-grouping tolerance of the isolated susceptibility, relative to max|E| at the point (no
+#: absolute floor: the same model in kelvin and in joules groups the same levels).
 _DEGENERACY_RTOL = 1e-9
+#: Lowest temperature: below it 1/T overflows a float (1/1.8e308).
+_T_MIN = 1.0 / 1.7976931348623157e308
 _F64 = numpy.dtype(float)
 _C128 = numpy.dtype(complex)
 
 
 def _real_input(name, value):
-    """A float, or a float64 ndarray of dimension >= 1."""
+    """A float, or a float64 ndarray of dimension >= 1; anything but real numbers raises
+    TypeError (text is refused, not converted: '3' is not a number here)."""
     if type(value) is float:
         return value
     if type(value) is numpy.ndarray and value.dtype == numpy.float64 and value.ndim:
         return value
     if isinstance(value, float):
         return float(value)       # numpy.float64 (what a fit passes): skip the 0-d array
+    if isinstance(value, (str, bytes, bool, numpy.bool_)) or value is None:
+        raise TypeError(f"{name}={value!r} must be a real number or an array of real numbers, "
+                        f"not {type(value).__name__}")
     try:
-        arr = numpy.asarray(value, dtype=float)
-    except (TypeError, ValueError):
-        raise ValueError(f"{name}={value!r} must be real numbers") from None
+        arr = numpy.asarray(value)
+        if arr.dtype.kind in "biuf":
+            arr = arr.astype(float)
+        elif arr.dtype.kind == "O":
+            arr = numpy.array([_one_real(name, v) for v in arr.reshape(-1)],
+                              dtype=float).reshape(arr.shape)
+        else:
+            raise TypeError
+    except (TypeError, ValueError, OverflowError):
+        raise TypeError(f"{name}={value!r} must be a real number or an array of real numbers "
+                        f"(got {type(value).__name__})") from None
+    if arr.dtype.kind != "f":
+        raise TypeError(f"{name}={value!r} must be real numbers")
     return float(arr) if arr.ndim == 0 else arr
+
+
+def _one_real(name, v):
+    """One element of an object array: a real number (int, float, Fraction, ...), not text."""
+    if isinstance(v, (str, bytes, bool, numpy.bool_, complex)) or v is None:
+        raise TypeError
+    return float(v)
 
 
 def _is_positive(T):
@@ -66,10 +90,17 @@ def _is_positive(T):
 
 def _temperature(T):
     T = _real_input("T", T)
-    ok = T > 0 if type(T) is float else (T.size == 0 or _is_positive(T))
+    if type(T) is float:
+        ok, low = T > 0, T
+    else:
+        ok = T.size == 0 or _is_positive(T)
+        low = T.item(T.argmin()) if T.size and ok else 1.0
     if not ok:
         raise ValueError("T must be > 0 (and not nan) everywhere")
-    return T
+    if low < _T_MIN:
+        raise ValueError(f"T must be at least {_T_MIN:.3g} (1/T overflows a float below it), "
+                         f"got T = {float(low)!r}")
+    return T                      # T = inf is the infinite-temperature limit (beta = 0)
 
 
 def _parameters(values):
@@ -505,12 +536,12 @@ def _atmin_a(energies, values):
 
 
 def _degtol_s(rtol, *energies):
-    return rtol * max(1.0, max(abs(e) for e in energies))
+    return rtol * max(abs(e) for e in energies)
 
 
 def _degtol_a(rtol, *energies):
-    out = 1.0
-    for e in energies:
+    out = numpy.abs(energies[0])
+    for e in energies[1:]:
         out = numpy.maximum(out, numpy.abs(e))
     return rtol * out
 

@@ -421,7 +421,6 @@ def test_scalar_inputs_give_python_numbers_and_arrays_keep_their_shape():
     lambda m: m.chi_isothermal(np.array([1.0, -1.0]), 1.0, 0.1),
     lambda m: m.chi_isothermal(float("nan"), 1.0, 0.1),
     lambda m: m.chi_isothermal(1.0, float("inf"), 0.1),
-    lambda m: m.chi_isothermal(1.0, "J", 0.1),
     lambda m: m.chi_static(1.0, 1.0, 0.1, kind="adiabatic"),
     lambda m: m.jacobian_static(1.0, 1.0, 0.1, kind="adiabatic"),
     lambda m: m.chi_omega(0.1, 1.0, 1.0, 0.1, eta=0.0),
