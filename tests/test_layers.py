@@ -30,7 +30,7 @@ PACKAGE = Path(__file__).resolve().parents[1] / "symresp"
 
 #: Rank of each layer; a module may import only from its own rank or lower ones.
 RANKS = {
-    "conventions": 0, "errors": 0, "_public": 0,
+    "conventions": 0, "errors": 0, "_public": 0, "_files": 0,
     "algebra": 1, "numeric": 1, "text": 2, "models": 3, "spectrum": 4, "response": 5,
     "checks": 6, "emit": 7, "cases": 8, "_api": 9, "batch": 9, "cli": 10, "__main__": 11,
     "__init__": 11,
@@ -39,7 +39,7 @@ RANKS = {
 #: Third-party packages each layer may import (the standard library is always allowed).
 _SYMBOLIC = {"sympy", "mpmath", "numpy"}
 THIRD_PARTY = {
-    "errors": set(), "_public": set(), "conventions": {"sympy"},
+    "errors": set(), "_public": set(), "_files": set(), "conventions": {"sympy"},
     "numeric": {"numpy"},
     "algebra": {"sympy", "numpy"}, "text": {"sympy"}, "models": {"sympy"},
     "spectrum": _SYMBOLIC | {"flint"}, "response": _SYMBOLIC, "checks": _SYMBOLIC,

@@ -1,7 +1,8 @@
 """Finding case files: paths, bundled cases and the ``SYMRESP_CASES`` search path (layer: cases).
 
 Owns :func:`case_directories`, :func:`bundled_cases`, :func:`find_case` and
-:func:`case_summary`. Imports the standard library and :mod:`symresp.errors`.
+:func:`case_summary`. Imports the standard library, :mod:`symresp.errors`, :mod:`symresp._files` and
+:mod:`._read` (limits).
 
 Search order for a bare name such as ``dimer``: each directory of the environment variable
 ``SYMRESP_CASES`` (separated by ``os.pathsep``), then the ``cases/`` directory of the source
@@ -18,7 +19,9 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
 
+from .._files import read_text_file
 from ..errors import InputError
+from ._read import MAX_CASE_BYTES, MAX_CASE_DEPTH, nesting_fault
 
 __all__ = ["case_directories", "bundled_cases", "find_case", "case_summary", "CaseSummary",
            "ENV_VARIABLE"]
@@ -117,12 +120,16 @@ def case_summary(path: Path) -> CaseSummary:
     'dimer'
     """
     try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
+        text = read_text_file(path, limit=MAX_CASE_BYTES, what="case file")
+        deep = nesting_fault(text)
+        if deep is not None:
+            raise ValueError(f"nested more than {MAX_CASE_DEPTH} levels deep")
+        data = tomllib.loads(text)
         model = data.get("model", {})
         name = model.get("name", path.stem) if isinstance(model, dict) else path.stem
         description = model.get("description", "") if isinstance(model, dict) else ""
         if not isinstance(name, str) or not isinstance(description, str):
             raise ValueError("name and description must be strings")
-    except (OSError, UnicodeDecodeError, ValueError, tomllib.TOMLDecodeError) as err:
+    except (OSError, UnicodeDecodeError, ValueError, RecursionError, tomllib.TOMLDecodeError) as err:
         return CaseSummary(path.stem, path, f"(unreadable: {err})")
     return CaseSummary(name, path, " ".join(description.split()))

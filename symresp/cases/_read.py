@@ -46,6 +46,7 @@ import sympy as sp
 from ..algebra import (MAX_CUTOFF, MAX_DIMENSION, MAX_LEVELS, MAX_SPIN, LevelSite, Operator,
                        SpinSite, boson, fermion, nlevel, spin)
 from ..conventions import name_problem
+from .._files import read_text_file
 from ..emit import temperature_unit_name
 from ..errors import InputError, NotConservedError, NotHermitianError
 from ..models import System
@@ -54,7 +55,8 @@ from ._locate import KeyPlace, Locator
 from ._magnet import Magnetism, read_magnetism
 
 __all__ = ["Case", "Parameter", "SiteSpec", "ResponseRequest", "read_case", "parse_case",
-           "QUANTITIES", "DEFAULT_QUANTITIES", "ASSUMPTIONS", "SITE_KINDS", "MAX_CASE_BYTES"]
+           "QUANTITIES", "DEFAULT_QUANTITIES", "ASSUMPTIONS", "SITE_KINDS", "MAX_CASE_BYTES",
+           "MAX_CASE_DEPTH", "nesting_fault"]
 
 #: Quantities a response request may ask for.
 QUANTITIES = ("isothermal", "isolated", "frequency", "time")
@@ -70,6 +72,8 @@ ASSUMPTIONS: Mapping[str, Mapping[str, bool]] = {
 SITE_KINDS = ("spin", "levels", "fermion", "spinful fermion", "boson")
 #: Largest case file accepted (bytes).
 MAX_CASE_BYTES = 1_000_000
+#: Deepest nesting of arrays and inline tables in a case file (a case needs 3 or 4).
+MAX_CASE_DEPTH = 16
 
 _TOP_KEYS = ("model", "parameters", "sites", "observables", "sector", "response", "zeeman",
              "sample")
@@ -227,22 +231,54 @@ def read_case(path: str | Path) -> Case:
     2
     """
     p = Path(path)
-    try:
-        size = p.stat().st_size
-        if size > MAX_CASE_BYTES:
-            raise InputError(f"{p}: the case file has {size} bytes, more than the limit of "
-                             f"{MAX_CASE_BYTES}")
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError(f"{p}: no such case file") from None
-    except IsADirectoryError:
-        raise InputError(f"{p}: is a directory, not a case file") from None
-    except UnicodeDecodeError as err:
-        raise InputError(f"{p}: the case file is not UTF-8 text ({err.reason} at byte "
-                         f"{err.start})") from None
-    except OSError as err:
-        raise InputError(f"{p}: cannot read the case file ({err.strerror or err})") from None
+    text = read_text_file(p, limit=MAX_CASE_BYTES, what="case file")
     return parse_case(text, source=str(p), name=p.stem)
+
+
+def nesting_fault(text: str, limit: int = MAX_CASE_DEPTH) -> int | None:
+    """Offset of the first bracket nested deeper than ``limit`` in TOML text, or None.
+
+    Strings and comments are skipped; table headers count like arrays. Checked before the TOML
+    parser runs, whose recursion would otherwise end in an internal error on deep input.
+
+    Examples
+    --------
+    >>> from symresp.cases import nesting_fault
+    >>> nesting_fault('x = [[1], {a = "[[[["}]  # [[[[', limit=2) is None
+    True
+    >>> nesting_fault("x = [[[1]]]", limit=2)
+    6
+    """
+    depth, i, n = 0, 0, len(text)
+    while i < n:
+        c = text[i]
+        if c == "#":
+            j = text.find("\n", i)
+            i = n if j < 0 else j
+            continue
+        if c in "\"'":
+            if text.startswith(c * 3, i):
+                j = i + 3
+                while True:
+                    j = text.find(c * 3, j)
+                    if j < 0 or c == "'" or text[j - 1] != "\\":
+                        break
+                    j += 1
+                i = n if j < 0 else j + 3
+                continue
+            j = i + 1
+            while j < n and text[j] != c and text[j] != "\n":
+                j += 2 if c == '"' and text[j] == "\\" else 1
+            i = j + 1
+            continue
+        if c in "[{":
+            depth += 1
+            if depth > limit:
+                return i
+        elif c in "]}":
+            depth = max(depth - 1, 0)
+        i += 1
+    return None
 
 
 def parse_case(text: str, *, source: str = "<case>", name: str | None = None) -> Case:
@@ -368,10 +404,18 @@ class _Reader:
 
     # ------------------------------------------------------------ the file
     def read(self) -> Case:
+        deep = nesting_fault(self.text)
+        if deep is not None:
+            raise ParseError.at(self.text, deep, f"arrays and inline tables are nested more than "
+                                                 f"{MAX_CASE_DEPTH} levels deep; a case file "
+                                                 f"needs only a few (see docs/limits.md)",
+                                source=self.source)
         try:
             data = tomllib.loads(self.text)
         except tomllib.TOMLDecodeError as err:
             raise self.toml_error(err) from None
+        except RecursionError:
+            raise self.fail("", "the TOML structure is nested too deeply") from None
         for key in data:
             if key not in _TOP_KEYS:
                 where = f"top-level key '{key}'"

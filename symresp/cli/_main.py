@@ -28,18 +28,23 @@ from ..cases import (QUANTITIES, Case, bundled_cases, case_directories, case_sum
                      with_values)
 from ..checks import QUANTITIES as CHECKED_QUANTITIES
 from ..checks import compare, consistency
+from .._files import read_text_file, read_text_stream, write_file, write_files
 from ..emit import numpy_module_source
 from ..errors import InputError, SymrespError
 from ..models import DEFAULT_SECONDS, Budget, checkpoint
 from ..response import Derivation
-from ..text import ParseError
+from ..text import MAX_LENGTH, ParseError
 from ._batch import describe_outputs, report_lines
 from ._fit import add_fit_parser
 from ._resonance import add_resonance_parser
 from ._format import derivation_json, describe_case, describe_derivation, verification_table
-from ._plot import HAVE_MATPLOTLIB, write_plots
+from ._plot import HAVE_MATPLOTLIB, render_plots
 
 __all__ = ["main", "build_parser", "EXIT_OK", "EXIT_FAILURE", "EXIT_BAD_INPUT"]
+
+#: Largest formula file (bytes); the formula text itself is limited to symresp.text.MAX_LENGTH
+#: characters.
+MAX_FORMULA_BYTES = 4 * MAX_LENGTH
 
 EXIT_OK = 0
 EXIT_FAILURE = 1
@@ -220,7 +225,10 @@ def build_parser() -> argparse.ArgumentParser:
                        description="Plot the broadened spectrum chi''(omega) and the static "
                                    "susceptibilities chi(T) and chi*T against T, at the default "
                                    "parameter values of the case (needs matplotlib).")
-    p.add_argument("--out", required=True, metavar="DIR", help="directory for the PNG files")
+    p.add_argument("--out", required=True, metavar="DIR", help="directory for the PNG files "
+                                                                "(created if missing)")
+    p.add_argument("--force", action="store_true",
+                   help="overwrite PNG files that exist already (never the case file)")
     p.add_argument("--temperature", type=_positive_float, metavar="T",
                    help="temperature of the spectrum (default: the case's energy scale)")
     p.add_argument("--eta", type=_positive_float, metavar="ETA",
@@ -233,6 +241,8 @@ def build_parser() -> argparse.ArgumentParser:
                        description="Write the standalone numpy evaluator of one response to a "
                                    "Python file.")
     p.add_argument("--out", required=True, metavar="FILE", help="the Python file to write")
+    p.add_argument("--force", action="store_true",
+                   help="overwrite FILE if it exists (never the case file)")
     p.set_defaults(run=_cmd_emit)
 
     add_fit_parser(sub, common, _positive_float)
@@ -394,14 +404,15 @@ def _formula_text(args: argparse.Namespace) -> tuple[str, str]:
         return args.formula, "<formula>"
     path = args.formula_file
     if path == "-":
-        return sys.stdin.read().rstrip(), "<stdin>"
-    try:
-        return Path(path).read_text(encoding="utf-8").rstrip(), path
-    except UnicodeDecodeError:
-        raise InputError(f"--formula-file {path}: not a UTF-8 text file") from None
-    except OSError as err:
-        raise InputError(f"--formula-file {path}: cannot read the file "
-                         f"({err.strerror or err})") from None
+        stream = getattr(sys.stdin, "buffer", None)
+        if stream is None:                 # a text stream in place of stdin (tests)
+            text = sys.stdin.read(MAX_FORMULA_BYTES + 1)
+            if len(text) > MAX_FORMULA_BYTES:
+                raise InputError(f"--formula-file -: more than the limit of {MAX_FORMULA_BYTES} "
+                                 f"bytes (see docs/limits.md)")
+            return text.rstrip(), "<stdin>"
+        return read_text_stream(stream, limit=MAX_FORMULA_BYTES, what="--formula-file -").rstrip(), "<stdin>"
+    return read_text_file(path, limit=MAX_FORMULA_BYTES, what="--formula-file").rstrip(), path
 
 
 def _response_header(case: Case, label: str) -> str:
@@ -475,14 +486,19 @@ def _cmd_plot(args: argparse.Namespace, progress: _Progress) -> int:
     out = Path(args.out)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {out}: exists and is not a directory")
+    pictures = []
     for label, d in derived:
         progress(f"computing curves of '{label}'")
         curves = response_curves(case, label, d, temperature=args.temperature, eta=args.eta)
-        try:
-            for path in write_plots(case.name, curves, out):
-                print(path)
-        except OSError as err:
-            raise InputError(f"--out {out}: cannot write the plots ({err.strerror or err})") from None
+        pictures += render_plots(case.name, curves)
+    progress("writing the plots")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as err:
+        raise InputError(f"--out {out}: cannot create the directory ({err.strerror or err})") from None
+    for path in write_files([(out / name, data) for name, data in pictures], force=args.force,
+                            inputs=[case.source]):
+        print(path)
     return EXIT_OK
 
 
@@ -499,12 +515,7 @@ def _cmd_emit(args: argparse.Namespace, progress: _Progress) -> int:
     label, d = derived[0]
     progress(f"writing the evaluator of '{label}'")
     source = numpy_module_source(d)
-    out = Path(args.out)
-    try:
-        out.write_text(source, encoding="utf-8")
-    except OSError as err:
-        raise InputError(f"--out {out}: cannot write the file ({err.strerror or err})") from None
-    print(out)
+    print(write_file(args.out, source, force=args.force, inputs=[case.source]))
     return EXIT_OK
 
 

@@ -1,14 +1,17 @@
 """PNG plots of a response and the picture of a fit (layer: cli; the only module that imports
 matplotlib).
 
-Owns :func:`write_plots`, :func:`fit_figure`, :func:`write_fit_picture` and
-:data:`HAVE_MATPLOTLIB`. matplotlib is optional (``pip install
+Owns :func:`render_plots`, :func:`fit_figure`, :func:`write_fit_picture` and
+:data:`HAVE_MATPLOTLIB`; the plot command writes the pictures with
+:func:`symresp._files.write_files` (atomic, never over an existing file without
+``--force``). matplotlib is optional (``pip install
 symresp[plot]``); when it is missing this module still imports and ``HAVE_MATPLOTLIB`` is
 False. The Agg backend is selected, so no display is needed.
 """
 
 from __future__ import annotations
 
+import io
 import re
 from pathlib import Path
 
@@ -26,7 +29,7 @@ except ImportError:  # pragma: no cover - depends on the installation
     Figure = None  # type: ignore[assignment,misc]
     HAVE_MATPLOTLIB = False
 
-__all__ = ["write_plots", "HAVE_MATPLOTLIB", "safe_stem", "fit_figure", "write_fit_picture"]
+__all__ = ["render_plots", "HAVE_MATPLOTLIB", "safe_stem", "fit_figure", "write_fit_picture"]
 
 
 def safe_stem(text: str) -> str:
@@ -40,13 +43,18 @@ def _unit(u: str, inverse: bool = False) -> str:
     return f" ({u})" if not inverse else f" (1/{u})"
 
 
-def write_plots(case_name: str, curves: Curves, out: Path) -> list[Path]:
-    """Write the spectrum, chi(T) and chi*T plots of one response; return the file paths."""
+def _png(fig) -> bytes:
+    buffer = io.BytesIO()
+    fig.savefig(buffer, dpi=120, format="png")
+    return buffer.getvalue()
+
+
+def render_plots(case_name: str, curves: Curves) -> list[tuple[str, bytes]]:
+    """The spectrum, chi(T) and chi*T plots of one response as (file name, PNG bytes)."""
     assert HAVE_MATPLOTLIB and Figure is not None
-    out.mkdir(parents=True, exist_ok=True)
     stem = f"{safe_stem(case_name)}-{safe_stem(curves.label)}"
     u = curves.energy_unit
-    written: list[Path] = []
+    written: list[tuple[str, bytes]] = []
     if curves.omega.size:
         fig = Figure(figsize=(6.0, 4.0), layout="tight")
         ax = fig.add_subplot()
@@ -56,9 +64,7 @@ def write_plots(case_name: str, curves: Curves, out: Path) -> list[Path]:
         ax.set_ylabel("chi''(omega)" + _unit(u, inverse=True))
         ax.set_title(f"{case_name}, {curves.label}: T = {curves.temperature:.4g}{' ' + u if u else ''}, "
                      f"Lorentzian half width {curves.eta:.3g}")
-        path = out / f"{stem}-spectrum.png"
-        fig.savefig(path, dpi=120)
-        written.append(path)
+        written.append((f"{stem}-spectrum.png", _png(fig)))
     fig = Figure(figsize=(6.0, 4.0), layout="tight")
     ax = fig.add_subplot()
     ax.plot(curves.T, curves.isothermal.real, label="isothermal", color="C0")
@@ -67,9 +73,7 @@ def write_plots(case_name: str, curves: Curves, out: Path) -> list[Path]:
     ax.set_ylabel("static chi" + _unit(u, inverse=True))
     ax.set_title(f"{case_name}, {curves.label}: static susceptibility")
     ax.legend()
-    path = out / f"{stem}-chi.png"
-    fig.savefig(path, dpi=120)
-    written.append(path)
+    written.append((f"{stem}-chi.png", _png(fig)))
     fig = Figure(figsize=(6.0, 4.0), layout="tight")
     ax = fig.add_subplot()
     ax.plot(curves.T, curves.T * curves.isothermal.real, label="isothermal", color="C0")
@@ -78,9 +82,7 @@ def write_plots(case_name: str, curves: Curves, out: Path) -> list[Path]:
     ax.set_ylabel("chi * T (dimensionless, k_B = 1)")
     ax.set_title(f"{case_name}, {curves.label}: chi T")
     ax.legend()
-    path = out / f"{stem}-chiT.png"
-    fig.savefig(path, dpi=120)
-    written.append(path)
+    written.append((f"{stem}-chiT.png", _png(fig)))
     return written
 
 
