@@ -418,7 +418,7 @@ def describe(op: Operator) -> str:
     if const != 0:
         parts.append(sp.sstr(const))
     for k, (name, _) in zip(coeffs, names):
-        v = sp.nsimplify(sol[0].get(k, 0)).subs({c: 0 for c in coeffs})
+        v = sp.nsimplify(sol[0].get(k, 0)).subs({c: 0 for c in coeffs})  # safe: sympy objects computed here, never user text
         if v == 0:
             continue
         parts.append(name if v == 1 else f"-{name}" if v == -1 else f"{sp.sstr(v) if v.is_Atom else '(' + sp.sstr(v) + ')'}*{name}")

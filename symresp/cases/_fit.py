@@ -307,7 +307,7 @@ class MagnetometryModel:
     def _g_norm(self, direction: Sequence[float]):
         """g along a principal direction for the mean-field term, |n . g|, and its gradient."""
         g = next(iter(self.handles.values()))
-        row = g.along([sp.nsimplify(x) for x in direction])
+        row = g.along([sp.nsimplify(x) for x in direction])  # safe: float components, not text
         norm = sp.sqrt(sum(r * r for r in row))
         grads = {s: sp.diff(norm, s) for s in self.varied if s in norm.free_symbols}
         return norm, grads

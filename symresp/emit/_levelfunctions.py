@@ -277,7 +277,7 @@ def level_functions(derivation: Derivation, parameters: Sequence[sp.Symbol],
     roots = []
     for sym in root_syms:
         k, coeffs = imp.rules[sym]
-        cfn = sp.lambdify(arg_syms, [sp.sympify(c).xreplace(rename) for c in coeffs],
+        cfn = sp.lambdify(arg_syms, [sp.sympify(c).xreplace(rename) for c in coeffs],  # safe: sympy objects computed here, never user text
                           modules="numpy")
         roots.append((k, cfn))
     degeneracies = np.array([lv.degeneracy for lv in derivation.levels], dtype=float)

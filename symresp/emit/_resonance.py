@@ -94,7 +94,7 @@ class Resonance:
 def _perpendicular(n: Sequence[sp.Expr]) -> tuple[sp.Expr, sp.Expr, sp.Expr]:
     """A unit vector perpendicular to n: along z x n, or x when n is along z."""
     cross = (-n[1], n[0], sp.Integer(0))
-    norm2 = sp.nsimplify(cross[0] ** 2 + cross[1] ** 2)
+    norm2 = sp.nsimplify(cross[0] ** 2 + cross[1] ** 2)  # safe: sympy objects computed here, never user text
     if norm2 == 0:
         return (sp.Integer(1), sp.Integer(0), sp.Integer(0))
     return tuple(sp.radsimp(c / sp.sqrt(norm2)) for c in cross)  # type: ignore[return-value]
@@ -232,8 +232,8 @@ def resonance_fields(hamiltonian: object, g_by_site: Mapping, *,
             slope = (float(np.real(energies[b_](b + h) - energies[a_](b + h)))
                      - float(np.real(energies[b_](b - h) - energies[a_](b - h)))) / (2 * h)
             field = float(b) / float(c)
-            exact_B = None if exact is None else sp.nsimplify(exact / cq) if exact.is_Rational \
-                else exact / cq
+            exact_B = (None if exact is None else sp.nsimplify(exact / cq)  # safe: sympy numbers
+                       if exact.is_Rational else exact / cq)
             out.append(Resonance(field, exact_B, a_, b_, (float(E[a_]), float(E[b_])), W,
                                  float(p[a_] - p[b_]), float((p[a_] - p[b_]) * W),
                                  slope * float(c), method))
@@ -262,7 +262,7 @@ def _solve_exact(Om: sp.Expr, B: sp.Symbol, w0: sp.Rational, Bmax: float):
             if 0 < b <= Bmax * (1 + 1e-12):
                 check = complex(sp.N(Om.subs(B, s), 30))
                 if abs(abs(check) - float(w0)) <= _RESONANCE_RTOL * float(w0):
-                    roots.append((b, sp.nsimplify(s) if s.is_Rational else s))
+                    roots.append((b, sp.nsimplify(s) if s.is_Rational else s))  # safe: sympy objects computed here, never user text
     roots.sort(key=lambda r: r[0])
     dedup = []
     for b, e in roots:

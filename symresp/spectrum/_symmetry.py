@@ -658,4 +658,4 @@ def _eigenvalues(M: flint.fmpq_mat) -> list[Fraction] | None:
 def _spin_of(c: Fraction) -> sp.Rational:
     """S from S(S+1) = c."""
     S = (sp.sqrt(1 + 4 * sp.Rational(c.numerator, c.denominator)) - 1) / 2
-    return sp.nsimplify(S)
+    return sp.nsimplify(S)  # safe: sympy objects computed here, never user text
