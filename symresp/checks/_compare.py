@@ -36,6 +36,7 @@ import sympy as sp
 from .._public import public
 from ..conventions import T, beta, eta, omega, t
 from ..errors import InputError
+from ..models import checkpoint
 from ..response import Derivation
 from ..text import ParseError, parse_scalar
 from ._points import (PREC_BITS, WORKING_DIGITS, LevelData, draw_beta, draw_parameters, draw_real,
@@ -388,6 +389,7 @@ class _Comparison:
                   beta_value: sp.Expr | None = None, z: mp.mpc | None = None,
                   time: mp.mpf | None = None, energies=None) -> mp.mpc | None:
         q = quantity or self.quantity
+        checkpoint("evaluating the derived quantity at the sample points")
         try:
             data = self.data(s.params if params is None else params)
             b = to_mp(s.beta if beta_value is None else beta_value).real
@@ -414,6 +416,7 @@ class _Comparison:
                     expr: sp.Expr | None = None) -> mp.mpc | None:
         e = self.theirs_expr if expr is None else expr
         subs = self.their_subs(s, beta_value)
+        checkpoint("evaluating the hand formula at the sample points")
         try:
             val = e.xreplace({k: v for k, v in subs.items() if k in e.free_symbols})
             val = val.evalf(n=WORKING_DIGITS)

@@ -48,6 +48,7 @@ from .._public import public
 from ..algebra import commutator, dagger, to_array
 from ..conventions import beta, omega, t
 from ..errors import InputError, SymrespError
+from ..models import checkpoint
 from ..numeric import NumericResponse, eigensystem, expectation, solve
 from ..response import Derivation, derive
 from ._points import PREC_BITS, compile_expression, draw_beta, draw_parameters, draw_real, to_mp
@@ -576,13 +577,23 @@ def consistency(derivation: Derivation, *, points: int = 3, seed: int = 0) -> Re
                           key=lambda s: s.name))
     with mp.workprec(PREC_BITS):
         closed = _Closed(d, params)
-        pts = [_draw_point(d, closed, rng) for _ in range(points)]
+        pts = []
+        for k in range(points):
+            checkpoint("consistency checks: drawing points", f"point {k + 1} of {points}")
+            pts.append(_draw_point(d, closed, rng))
         rows: list[CheckRow] = []
+        checkpoint("consistency checks: sum rules")
         rows += _moments(d, pts)
+        checkpoint("consistency checks: Kramers-Kronig")
         rows.append(_kramers_kronig(d, closed, pts))
+        checkpoint("consistency checks: fluctuation-dissipation")
         rows += _fluctuation_dissipation(d, closed, pts)
+        checkpoint("consistency checks: positivity")
         rows += _positivity(d, closed, pts)
+        checkpoint("consistency checks: Onsager reciprocity")
         rows.append(_onsager(d, closed, pts))
+        checkpoint("consistency checks: high-temperature limit")
         rows.append(_high_temperature(d, closed, pts))
+        checkpoint("consistency checks: exact diagonalisation")
         rows += _reference(d, closed, pts)
     return Report(tuple(rows), points, seed)

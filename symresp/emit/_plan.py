@@ -41,6 +41,7 @@ from dataclasses import dataclass
 import sympy as sp
 
 from ..errors import ClosedFormError, InputError
+from ..models import checkpoint
 from ..response import Derivation
 from ..spectrum import LevelRoot, clean
 
@@ -243,6 +244,7 @@ def build_plan(d: Derivation) -> Plan:
 
     pairs: list[Pair] = []
     for a in range(L):
+        checkpoint("planning the evaluator: pairs of levels", f"level {a + 1} of {L}")
         for b in range(a + 1, L):
             wab, wba = W.get((a, b), sp.Integer(0)), W.get((b, a), sp.Integer(0))
             if wab == 0 and wba == 0:
@@ -311,6 +313,7 @@ def _group_pairs(pairs: list[Pair], symbols: tuple[sp.Symbol, ...]) -> tuple[Gro
     buckets: dict[str, list[int]] = {}
     groups: list[list[tuple[int, int]]] = []
     for k, p in enumerate(pairs):
+        checkpoint("planning the evaluator: grouping pole pairs", f"pair {k + 1} of {len(pairs)}")
         value = sp.N(p.w.subs(point), 40)
         if value.has(sp.I) or not value.is_real:
             raise InputError(f"emit: level spacing {p.w} is not real")
