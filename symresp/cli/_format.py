@@ -13,6 +13,7 @@ import sympy as sp
 
 from ..cases import Case, Verification
 from ..conventions import omega, t
+from ..models import checkpoint
 from ..response import Derivation
 from ..spectrum import LevelRoot
 
@@ -41,6 +42,7 @@ _SORT_LIMIT = 2000
 
 def text(expr: sp.Expr) -> str:
     """Plain-text form of a formula, readable back by :func:`symresp.text.parse_scalar`."""
+    checkpoint("printing the formulas")
     big = any(k >= _SORT_LIMIT for k, _ in enumerate(sp.preorder_traversal(expr)))
     return sp.sstr(expr, order="none") if big else sp.sstr(expr)
 
