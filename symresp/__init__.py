@@ -42,7 +42,7 @@ def __getattr__(name: str) -> object:
         source = _SOURCES[name]
     except KeyError:
         raise AttributeError(f"module 'symresp' has no attribute {name!r}") from None
-    value = getattr(import_module(source, __name__), name)
+    value = getattr(import_module(source, __name__), name)  # safe: a module of the fixed table
     globals()[name] = value  # later lookups skip this function
     return value
 

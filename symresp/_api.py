@@ -499,9 +499,10 @@ class Response:
         >>> round(sr.Model(0 * s.z).response(s.z).reference(T=0.5).isothermal.real, 12)
         0.5
         """
-        T = _real_number(T, "reference: T")
-        if not T > 0:
+        T_value = _real_number(T, "reference: T")
+        if not T_value > 0:
             raise InputError(f"reference: T={T!r} must be a positive finite number")
+        T = T_value
         system = self._d.system
         p = _numeric_params(system, params)
         basis = system.basis()
@@ -661,12 +662,11 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
     if missing:
         raise InputError(f"evaluate: give values for {', '.join(sorted(map(str, missing)))} in params=")
     subs: dict = {k: _exact(v.real) + (sp.I * _exact(v.imag) if v.imag else 0) for k, v in p.items()}
-    if T is not None:
-        T = _real_number(T, "evaluate: T")
+    T_value = None if T is None else _real_number(T, "evaluate: T")
     if expr.has(beta):
-        if T is None or not T > 0:
+        if T_value is None or not T_value > 0:
             raise InputError(f"evaluate: T={T!r} must be a positive temperature")
-        subs[beta] = 1 / _exact(T)
+        subs[beta] = 1 / _exact(T_value)
     if quantity == "frequency":
         if omega_value is None:
             raise InputError("evaluate: give omega_value for the 'frequency' quantity")
