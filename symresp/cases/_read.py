@@ -231,6 +231,8 @@ def read_case(path: str | Path) -> Case:
     2
     """
     p = Path(path)
+    if not p.exists():
+        raise InputError(f"{p}: no such case file")
     text = read_text_file(p, limit=MAX_CASE_BYTES, what="case file")
     return parse_case(text, source=str(p), name=p.stem)
 
