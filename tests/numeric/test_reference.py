@@ -32,7 +32,7 @@ from symresp.numeric import (
     static_isolated,
     static_isothermal,
 )
-from symresp.numeric import _reference
+from symresp.numeric import _lehmann, _levels
 
 from ._kron import SIGMA_X, SIGMA_Y, SIGMA_Z, embed, heisenberg_dimer, spin_matrices, total
 
@@ -466,7 +466,7 @@ def test_rotation_inside_degenerate_levels_changes_nothing():
     h, a, b = degenerate_model()
     beta = 1.4
     energies, vectors = np.linalg.eigh(h)
-    es = _reference._build_eigensystem(energies, vectors, None)
+    es = _levels._build_eigensystem(energies, vectors, None)
     assert np.any(es.degeneracies > 1)
     # Rotate the eigenvectors of every level by its own random unitary.
     rng = np.random.default_rng(3)
@@ -474,9 +474,9 @@ def test_rotation_inside_degenerate_levels_changes_nothing():
     for level, g in enumerate(es.degeneracies):
         cols = np.flatnonzero(es.labels == level)
         rotated[:, cols] = vectors[:, cols] @ random_unitary(rng, int(g))
-    es_rot = _reference._build_eigensystem(energies, rotated, None)
-    ref = _reference._lehmann(es, a, b, beta)
-    rot = _reference._lehmann(es_rot, a, b, beta)
+    es_rot = _levels._build_eigensystem(energies, rotated, None)
+    ref = _lehmann._lehmann(es, a, b, beta)
+    rot = _lehmann._lehmann(es_rot, a, b, beta)
     scale = np.linalg.norm(a) * np.linalg.norm(b)
     assert_close(rot.isolated, ref.isolated, scale=scale)
     assert_close(rot.isothermal, ref.isothermal, scale=scale)
