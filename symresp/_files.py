@@ -28,7 +28,7 @@ from pathlib import Path
 
 from .errors import InputError
 
-__all__ = ["write_files", "write_file", "read_text_file", "read_text_stream"]
+__all__ = ["write_files", "write_file", "replace_file", "read_text_file", "read_text_stream"]
 
 
 def _same(a: Path, b: Path) -> bool:
@@ -66,7 +66,16 @@ def _check_target(path: Path, *, force: bool, inputs: Sequence[Path], option: st
         raise InputError(f"{option} {path}: the directory {parent} is not writable")
 
 
-def _replace(path: Path, data: bytes, option: str) -> None:
+def replace_file(path: Path, data: bytes, *, option: str = "--out",
+                 temp_prefix: str | None = None) -> None:
+    """Put ``data`` at ``path`` atomically, with no checks of the target (callers check first).
+
+    The data go to a temporary file in the target directory (named ``temp_prefix`` + random,
+    default ``.NAME.``), flushed to disk and renamed over ``path``; on any failure the temporary
+    file is removed, so ``path`` is either the old file or the complete new one. ``OSError``
+    becomes :class:`~symresp.errors.InputError` naming ``option`` and the file.
+    """
+    path = Path(path)
     parent = path.parent if str(path.parent) else Path(".")
     target = path.resolve() if path.is_symlink() else path   # replace the file a link points to
     try:
@@ -76,7 +85,7 @@ def _replace(path: Path, data: bytes, option: str) -> None:
         os.umask(mask)
         mode = 0o666 & ~mask
     fd, tmp = tempfile.mkstemp(dir=target.parent if target is not path else parent,
-                               prefix=f".{path.name}.", suffix=".part")
+                               prefix=temp_prefix or f".{path.name}.", suffix=".part")
     try:
         with os.fdopen(fd, "wb") as f:
             f.write(data)
@@ -138,7 +147,7 @@ def write_files(items: Iterable[tuple[str | os.PathLike, str | bytes]], *, force
         seen.add(path)
         _check_target(path, force=force, inputs=srcs, option=option)
     for path, data in pending:
-        _replace(path, data, option)
+        replace_file(path, data, option=option)
     return [p for p, _ in pending]
 
 

@@ -20,11 +20,11 @@ import json
 import os
 import signal
 import socket
-import tempfile
 import threading
 from collections.abc import Iterator, Sequence
 from pathlib import Path
 
+from .._files import replace_file
 from ..errors import InputError
 from ._plan import FORMAT, CaseFailure, Task
 from ._task import CANCELLED, OK, TaskResult
@@ -50,22 +50,8 @@ def _sha256(data: bytes) -> str:
 
 def write_atomic(path: Path, text: str) -> None:
     """Write ``text`` to ``path`` so that ``path`` is either the old file or the complete new
-    one: write a temporary file in the same directory, flush it to disk, then rename it."""
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=_TEMP_PREFIX, suffix=".part")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as f:
-            f.write(text)
-            f.flush()
-            os.fsync(f.fileno())
-        # mkstemp makes the file private (0600); give it the permissions of an ordinary write.
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
-        raise
+    one (the package's one atomic writer, with the batch's temporary-file prefix)."""
+    replace_file(path, text.encode("utf-8"), option="--out", temp_prefix=_TEMP_PREFIX)
 
 
 @contextlib.contextmanager

@@ -10,6 +10,7 @@ parameters of CASE to the measured table DATA (``docs/fitting.md``).
 from __future__ import annotations
 
 import argparse
+import io
 import json
 import math
 import sys
@@ -17,9 +18,10 @@ from collections.abc import Callable
 from pathlib import Path
 
 from ..cases import FitResult, find_case, fit_case, parse_assignments, read_case, read_data
+from .._files import write_file
 from ..errors import InputError
 from ..models import Budget
-from ._plot import HAVE_MATPLOTLIB, write_fit_picture
+from ._plot import HAVE_MATPLOTLIB, fit_figure
 
 __all__ = ["add_fit_parser", "fit_text", "fit_json", "run_fit"]
 
@@ -52,6 +54,8 @@ def add_fit_parser(sub, common: argparse.ArgumentParser,
                    help="where to write the picture (default: fit-CASE.png in the current "
                         "directory)")
     p.add_argument("--no-picture", action="store_true", help="do not write a picture")
+    p.add_argument("--force", action="store_true",
+                   help="overwrite an existing picture file (never an input file)")
     p.add_argument("--budget", type=budget_type, metavar="SECONDS", default=600.0,
                    help="time limit of the derivations and the fit (default: 600)")
     p.set_defaults(run=run_fit)
@@ -101,6 +105,17 @@ def fit_json(result: FitResult, picture: str | None) -> str:
     return json.dumps(out, indent=2)
 
 
+def _picture_bytes(result: FitResult, target: Path) -> bytes:
+    """The picture of ``result`` encoded in the format of ``target``'s suffix (PNG by default)."""
+    fmt = target.suffix[1:].lower() or "png"
+    buf = io.BytesIO()
+    try:
+        fit_figure(result).savefig(buf, format=fmt, dpi=120)
+    except ValueError as err:  # an unknown image format suffix
+        raise InputError(f"--picture {target}: {err}") from None
+    return buf.getvalue()
+
+
 def run_fit(args: argparse.Namespace, progress) -> int:
     """Run ``symresp fit`` (exit 0 on a converged fit, 1 otherwise)."""
     path = find_case(args.case)
@@ -114,13 +129,8 @@ def run_fit(args: argparse.Namespace, progress) -> int:
     if not args.no_picture:
         if HAVE_MATPLOTLIB:
             target = Path(args.picture) if args.picture else Path(f"fit-{case.name}.png")
-            try:
-                write_fit_picture(result, target)
-            except OSError as err:
-                raise InputError(f"--picture {target}: cannot write the picture "
-                                 f"({err.strerror or err})") from None
-            except ValueError as err:  # an unknown image format suffix
-                raise InputError(f"--picture {target}: {err}") from None
+            write_file(target, _picture_bytes(result, target), force=args.force,
+                       inputs=[case.source, Path(args.data)], option="--picture")
             picture = str(target)
         else:
             print("note: no picture: matplotlib is not installed (pip install symresp[plot])",

@@ -47,6 +47,26 @@ def test_fit_json_has_the_fixed_shape_and_recovers_the_demo(capsys, tmp_path):
         assert picture.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" and picture.stat().st_size > 10_000
 
 
+@pytest.mark.skipif(not HAVE_MATPLOTLIB, reason="the picture needs matplotlib (plot extra)")
+def test_fit_picture_never_replaces_a_file_without_force_nor_an_input(capsys, tmp_path):
+    picture = tmp_path / "fit.png"
+    picture.write_bytes(b"earlier picture")
+    args = ("fit", "dinuclear", DEMO, "--vary", "J,g", "--json", "--picture", str(picture))
+    code, _, err = run(capsys, *args)
+    assert code == 2 and "--picture" in err and "--force" in err
+    assert picture.read_bytes() == b"earlier picture"
+    code, _, err = run(capsys, *args, "--force")
+    assert code == 0, err
+    assert picture.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    data = tmp_path / "data.png"          # a data table whose name looks like a picture
+    data.write_bytes(open(DEMO, "rb").read())
+    code, _, err = run(capsys, "fit", "dinuclear", str(data), "--vary", "J,g", "--picture",
+                       str(data), "--force")
+    assert code == 2 and "input of this command" in err
+    assert data.read_bytes() == open(DEMO, "rb").read()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["data.png", "fit.png"]  # no temp file
+
+
 def test_fit_text_and_set_start_values(capsys, tmp_path):
     code, out, _ = run(capsys, "fit", "dinuclear", DEMO, "--vary", "J,g", "--set", "J=90",
                        "--set", "g=2.2", "--no-picture")
