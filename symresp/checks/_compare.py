@@ -431,8 +431,16 @@ class _Comparison:
         return out if mp.isfinite(out) else None
 
     # ------------------------------------------------------------ agreement
-    def scale(self, values: list[mp.mpc]) -> mp.mpf:
-        m = max([abs(v) for v in self.theirs] + [abs(v) for v in values] + [mp.mpf(0)])
+    def scale(self, values: list[mp.mpc] | None = None) -> mp.mpf:
+        """Magnitude of the quantity for the absolute part of the tolerance: the largest of the
+        derived values over the samples (1 when they all vanish).
+
+        Only the derived values set it. A formula that is astronomically large somewhere (say
+        exp(exp(1000 beta))) must not make the absolute tolerance so wide that any slip, or
+        agreement, seems to reproduce it; far from zero the relative part decides. ``values``
+        is accepted for the callers' symmetry and does not enter.
+        """
+        m = max([abs(v) for v in self.ours] + [mp.mpf(0)])
         return m if m > 0 else mp.mpf(1)
 
     def close(self, a: mp.mpc, b: mp.mpc, scale: mp.mpf) -> bool:
