@@ -26,7 +26,7 @@ from .emit import latex_document, numpy_functions, numpy_module_source
 from .conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from .errors import InputError
 from .models import Budget, System
-from .response import Derivation, Level, Transition, derive
+from .response import Derivation, Level, Presentation, Transition, derive, present_response
 
 __all__ = ["Model", "Response", "load_case"]
 
@@ -581,6 +581,53 @@ class Response:
         """
         with self._budgeted():
             return latex_document(self._d, substitutions=substitutions, symbol_names=symbol_names)
+
+    def presented(self, quantities: object = ("isothermal", "isolated", "frequency", "time"), *,
+                  point: Mapping | None = None, budget: Budget = Budget(seconds=60.0)) -> Presentation:
+        r"""The response as a results section prints it: levels sorted by energy, transitions,
+        formulas in their shortest measured form and the where-list of the names they use
+        (radicals, Z, populations, means, pole frequencies and weights); see docs/output.md.
+
+        The formulas equal those of :meth:`static`, :meth:`frequency` and :meth:`time`
+        (``presented().value(q)`` substitutes the where-list back); this is an additional
+        view, the sympy expressions of those methods do not change.
+
+        Parameters
+        ----------
+        quantities : sequence of str
+            Any of "isothermal", "isolated", "frequency", "time", "correlation".
+        point : mapping, optional
+            Parameter values (by name or symbol) that order the levels (default: a generic
+            point, positive parameters of order one and sign-free ones small).
+        budget : Budget
+            Time for choosing forms; past it, cheaper forms are used and a note says so.
+
+        Returns
+        -------
+        symresp.response.Presentation
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> J = sp.Symbol("J", positive=True)
+        >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+        >>> p = sr.Model(J * (a.vec @ b.vec)).response(a.z + b.z).presented(["isothermal"])
+        >>> print(p.text())
+          levels (2), lowest first: energy E_i, degeneracy g, quantum numbers
+            E1 = -3*J/4  g = 1   Sz=0, S=0
+            E2 = J/4     g = 3   Sz=1; Sz=0; Sz=-1, S=1
+          transitions: none (A and B only connect states within levels)
+          chi_isothermal = 2*beta/(exp(J*beta) + 3)
+        >>> sp.simplify(p.value("isothermal") - 2*sr.beta/(3 + sp.exp(sr.beta*J)))
+        0
+        """
+        if isinstance(quantities, str):
+            quantities = (quantities,)
+        if not isinstance(budget, Budget):
+            raise InputError(f"presented: budget={budget!r} must be a symresp.models.Budget")
+        values = _numeric_params(self._d.system, point)
+        pt = {k: sp.Float(v.real) for k, v in values.items()}
+        return present_response(self._d, tuple(quantities), point=pt, clock=budget.start())
 
     def summary(self) -> str:
         """A readable derivation summary: levels, transitions, Z, static and dynamic chi.

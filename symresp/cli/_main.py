@@ -23,13 +23,13 @@ from importlib import metadata
 from pathlib import Path
 
 from ..batch import MAX_WORKERS, run_batch
-from ..cases import (QUANTITIES, Case, bundled_cases, case_directories, case_summary, derive_case,
-                     find_case, parse_assignments, read_case, response_curves, verify_case,
-                     with_values)
+from ..cases import (QUANTITIES, Case, bundled_cases, case_directories, case_json, case_summary,
+                     derive_case, find_case, parse_assignments, present_case, read_case,
+                     response_curves, verify_case, with_values)
 from ..checks import QUANTITIES as CHECKED_QUANTITIES
 from ..checks import compare, consistency
 from .._files import read_text_file, read_text_stream, write_file, write_files
-from ..emit import numpy_module_source
+from ..emit import latex_report, numpy_module_source
 from ..errors import InputError, SymrespError
 from ..models import DEFAULT_SECONDS, Budget, checkpoint
 from ..response import Derivation
@@ -37,7 +37,7 @@ from ..text import MAX_LENGTH, ParseError
 from ._batch import describe_outputs, report_lines
 from ._fit import add_fit_parser
 from ._resonance import add_resonance_parser
-from ._format import derivation_json, describe_case, describe_derivation, verification_table
+from ._format import describe_case, describe_presentations, verification_table
 from ._plot import HAVE_MATPLOTLIB, render_plots
 
 __all__ = ["main", "build_parser", "EXIT_OK", "EXIT_FAILURE", "EXIT_BAD_INPUT"]
@@ -166,7 +166,10 @@ def build_parser() -> argparse.ArgumentParser:
                         f"those the case asks for")
     fmt = p.add_mutually_exclusive_group()
     fmt.add_argument("--json", action="store_true", help="print one JSON document instead of text")
-    fmt.add_argument("--latex", action="store_true", help="print the formulas as LaTeX")
+    fmt.add_argument("--latex", action="store_true",
+                     help="print a complete LaTeX document (compiles as it is)")
+    fmt.add_argument("--latex-body", action="store_true",
+                     help="print the LaTeX body alone, for \\input into a paper")
     p.set_defaults(run=_cmd_derive)
 
     p = sub.add_parser("verify", parents=[with_case],
@@ -367,18 +370,21 @@ def _cmd_derive(args: argparse.Namespace, progress: _Progress) -> int:
     case = _load(args, progress)
     derived = _derive(case, args, progress)
     items = [(label, d, _quantities_of(case, label, args.quantity)) for label, d in derived]
-    progress("simplifying and printing")
+    progress("presenting")
+    presented = present_case(case, items, clock=Budget(seconds=args.budget).start())
     if args.json:
-        print(derivation_json(case, items))
+        print(case_json(case, presented))
         return EXIT_OK
-    lines = describe_case(case)
+    header = describe_case(case)
     if derived:
-        lines.append(f"  convention:  {derived[0][1].convention.describe()}")
-    texts = {r.label: (r.A_text, r.B_text) for r in case.responses}
-    for label, d, qs in items:
-        lines += describe_derivation(label, d, qs, texts=texts.get(label, ("", "")),
-                                     latex=args.latex)
-    print("\n".join(lines))
+        header.append(f"  convention:  {derived[0][1].convention.describe()}")
+    if args.latex or args.latex_body:
+        title, *rest = header
+        responses = [(label, a, b, p) for label, a, b, _d, p in presented]
+        print(latex_report(title, [line.strip() for line in rest], responses,
+                           body_only=args.latex_body), end="")
+        return EXIT_OK
+    print("\n".join(header + describe_presentations(presented)))
     return EXIT_OK
 
 

@@ -5,7 +5,8 @@ Public surface:
 * :func:`numpy_module_source`, :func:`compile_module`, :func:`numpy_functions`: a numpy-only
   module evaluating a derived response (static chi and its parameter Jacobian, chi(omega),
   broadened spectra, chi(t)) that stays finite at low temperature and at level crossings;
-* :func:`latex_document`: paper-ready equations;
+* :func:`latex_document`: paper-ready equations; :func:`latex_report`: a complete LaTeX
+  document (or its body) of presented responses; :func:`presentation_record`: JSON-ready data;
 * energy units and molar magnetic susceptibilities (:mod:`._units`);
 * the Zeeman term from g tensors and a field in tesla, magnetic moments and orientation
   quadratures (:mod:`._magnet`); molar magnetometry and its corrections
@@ -15,6 +16,7 @@ Public surface:
 Imports the layers below it (response, spectrum, conventions, errors); nothing below imports it.
 """
 
+from ._json import JSON_FORMAT, presentation_record
 from ._latex import latex_comment, latex_document, latex_text
 from ._levelfunctions import LevelFunctions, evaluator_parameters, level_functions
 from ._magnet import (AXES, GTensor, Quadrature, field_direction, g_tensor, magnetic_moment,
@@ -22,6 +24,7 @@ from ._magnet import (AXES, GTensor, Quadrature, field_direction, g_tensor, magn
 from ._magnetometry import (SYSTEMS, Corrections, brillouin, effective_moment, molar_factor,
                             moment_factor, powder_average)
 from ._numpy_module import compile_module, numpy_functions, numpy_module_source, symresp_version
+from ._report import escape_text, formula_latex, latex_names, latex_report, presentation_latex
 from ._resonance import DEFAULT_FREQUENCY_GHZ, DEFAULT_MAX_FIELD, Resonance, resonance_fields
 from ._units import (AVOGADRO, BOHR_MAGNETON, BOLTZMANN, ELEMENTARY_CHARGE, ENERGY_UNITS, EXACT,
                      PLANCK, SPEED_OF_LIGHT, TEMPERATURE_UNITS, VACUUM_PERMEABILITY,
@@ -32,7 +35,8 @@ from ._units import (AVOGADRO, BOHR_MAGNETON, BOLTZMANN, ELEMENTARY_CHARGE, ENER
 
 __all__ = [
     "numpy_module_source", "compile_module", "numpy_functions", "symresp_version",
-    "latex_document", "latex_text", "latex_comment",
+    "latex_document", "latex_text", "latex_comment", "latex_report", "presentation_latex",
+    "formula_latex", "latex_names", "escape_text", "presentation_record", "JSON_FORMAT",
     "energy_in_joule", "energy_factor", "convert_energy", "molar_susceptibility",
     "molar_susceptibility_times_temperature",
     "curie_constant", "ENERGY_UNITS", "PLANCK", "BOLTZMANN", "ELEMENTARY_CHARGE",

@@ -71,21 +71,31 @@ def test_progress_stages_go_to_stderr(capsys):
 def test_quantity_latex_and_response_options(capsys):
     assert main(["derive", "dimer", "-q", "--response", "Mx", "--quantity", "time", "--latex"]) == 0
     out = capsys.readouterr().out
-    assert "\\chi_{AB}(t) = " in out and "response 'M'" not in out and "chi_isothermal" not in out
+    assert "\\chi_{AB}(t) &= " in out and "Response M:" not in out and "chi^{T}" not in out
+    assert out.startswith("\\documentclass") and out.rstrip().endswith("\\end{document}")
 
 
 def test_json_formulas_read_back_with_the_formula_parser(capsys):
-    assert main(["derive", "dimer", "-q", "--json"]) == 0
+    # Every formula is text in sympy syntax over the parameters, beta and the where-list names;
+    # reading the where-list in order and then the formula gives the derived quantity.
+    assert main(["derive", "zfs_ion", "-q", "--json"]) == 0
     doc = json.loads(capsys.readouterr().out)
-    case = read_case(find_case("dimer"))
+    case = read_case(find_case("zfs_ion"))
     derived = dict(derive_case(case))
-    symbols = dict(case.symbols, beta=beta)
     for entry in doc["responses"]:
-        text = entry["quantities"]["isothermal"]["text"]
-        parsed = parse_scalar(text, symbols)
-        assert sp.simplify(parsed - derived[entry["label"]].static("isothermal")) == 0
-    assert doc["parameters"][0] == {"name": "J", "assume": "positive", "value": "12.5",
-                                    "unit": "K", "description": "intradimer exchange"}
+        symbols = dict(case.symbols, beta=beta)
+        for item in entry["where"]:
+            if item["kind"] != "root":
+                symbols[item["name"]] = parse_scalar(item["text"], symbols)
+        for q, name in entry["formula_symbols"].items():
+            symbols[name] = parse_scalar(entry["quantities"][q]["text"], symbols)
+        parsed = parse_scalar(entry["quantities"]["isothermal"]["text"], symbols)
+        expected = derived[entry["label"]].static("isothermal")
+        point = {s: v for s, v in case.defaults.items()}
+        point[beta] = sp.Rational(1, 3)
+        assert abs(sp.N((parsed - expected).subs(point), 30)) < 1e-20
+        assert [lv["label"] for lv in entry["levels"]] == [1, 2, 3]
+    assert doc["parameters"][0]["name"] == "D" and doc["parameters"][0]["value"] == "4.2"
 
 
 def test_case_path_and_search_variable(tmp_path, capsys):
