@@ -417,6 +417,37 @@ class Response:
         with self._budgeted():
             return self._d.spectral_lines()
 
+    def correlation_lines(self, kind: Literal["plain", "symmetrised", "canonical"] = "plain"
+                          ) -> list[tuple[sp.Expr, sp.Expr]]:
+        r"""Lines :math:`[(\Omega_k, s_k)]` of the correlation function
+        :math:`S_{AB}(\omega) = \int dt\, e^{i\omega t}\langle A(t) B\rangle
+        = 2\pi\sum_k s_k\,\delta(\omega - \Omega_k)`.
+
+        :math:`s_k = \sum_{E_m - E_n = \Omega_k} p_n A_{nm} B_{mn}`; the pairs inside a
+        degenerate level give the elastic line at :math:`\Omega = 0`. ``kind="symmetrised"``
+        gives :math:`\tfrac12\langle\{A(t), B\}\rangle` (weights
+        :math:`\tfrac12(p_n + p_m)A_{nm}B_{mn}`), ``kind="canonical"`` Kubo's canonical
+        correlation (weights :math:`(p_n - p_m)A_{nm}B_{mn}/(\beta\Omega_k)`, elastic as plain).
+        Fluctuation-dissipation: :math:`w_k = (1 - e^{-\beta\Omega_k}) s_k` for the poles
+        :math:`w_k` of :meth:`poles`; see docs/conventions.md, section 8.
+
+        Examples
+        --------
+        Two-level system, :math:`A = B = \sigma_x` (detailed balance):
+
+        >>> import sympy as sp, symresp as sr
+        >>> Delta = sp.Symbol("Delta", positive=True); q = sr.spin("q", sr.Rational(1, 2))
+        >>> r = sr.Model(Delta * q.z).response(2 * q.x)
+        >>> r.correlation_lines()
+        [(-Delta, 1/(exp(Delta*beta) + 1)), (Delta, 1/(1 + exp(-Delta*beta)))]
+        >>> r.correlation_lines("symmetrised")
+        [(-Delta, 1/2), (Delta, 1/2)]
+        """
+        if kind not in ("plain", "symmetrised", "canonical"):
+            raise InputError(f"correlation_lines: kind={kind!r} must be 'plain', 'symmetrised' "
+                             "or 'canonical'")
+        return self._d.correlation_lines(kind)
+
     def matsubara(self) -> sp.Expr:
         r""":math:`\chi(i\nu_n)` in ``sr.nu`` for :math:`\nu_n \ne 0` (at :math:`\nu_n = 0` use the isothermal value).
 
@@ -615,7 +646,7 @@ class Response:
         >>> print(p.text())
           levels (2), lowest first: energy E_i, degeneracy g, quantum numbers
             E1 = -3*J/4  g = 1   Sz=0, S=0
-            E2 = J/4     g = 3   Sz=1; Sz=0; Sz=-1, S=1
+            E2 = J/4     g = 3   Sz in {1, 0, -1}, S=1
           transitions: none (A and B only connect states within levels)
           chi_isothermal = 2*beta/(exp(J*beta) + 3)
         >>> sp.simplify(p.value("isothermal") - 2*sr.beta/(3 + sp.exp(sr.beta*J)))

@@ -40,7 +40,7 @@ GENERIC_LATEX = {
     "partition": r"Z &= \textstyle\sum_i g_i\, e^{-\beta(E_i - E_1)}",
 }
 #: A formula row holds about this many characters of plain text before it is broken.
-ROW_WIDTH = 70
+ROW_WIDTH = 55
 
 def escape_text(text: str) -> str:
     r"""``text`` safe in LaTeX text mode: :func:`symresp.emit.latex_text` (the ten special
@@ -115,6 +115,19 @@ def formula_latex(expr: sp.Expr, rank: Mapping | None = None,
 
 
 def _plain_length(expr: sp.Expr) -> int:
+    """Estimated printed width in characters: a fraction is as wide as the wider of its
+    numerator and denominator, not as their plain-text sum."""
+    if expr.is_Add:
+        return sum(_plain_length(a) + 3 for a in expr.args) - 3
+    if expr.is_Mul:
+        num, den = sp.fraction(expr)
+        if den != 1:
+            return max(_plain_length(num), _plain_length(den)) + 2
+        return sum(_plain_length(a) + 1 for a in expr.args) - 1
+    if expr.is_Pow and expr.exp.is_Integer and expr.exp > 0:
+        return _plain_length(expr.base) + 4
+    if isinstance(expr, sp.exp):
+        return max(3, _plain_length(expr.args[0]) * 2 // 3)     # a superscript is small
     return len(sp.sstr(expr))
 
 
@@ -148,27 +161,43 @@ def _chunks(expr: sp.Expr, pr: _Printer, width: int) -> list[str]:
             tex = pr.doprint(term)
             if isinstance(term, sp.Add):
                 tex = rf"\left({tex}\right)"
-            if current and length + _plain_length(term) > width:
+            if current and length + _plain_length(term) + 3 > width:
                 out.append(current)
                 current, length = "", 0
             current = f"{current} {sign}{tex}".strip()
-            length += _plain_length(term)
+            length += _plain_length(term) + 3
         if current:
             out.append(current)
         return out
+    if expr.is_Pow and expr.base.is_Add and expr.exp.is_Integer and expr.exp > 0:
+        inner = _chunks(expr.base, pr, width)
+        return _wrap_pieces(inner, r"\bigl(", rf"\bigr)^{{{expr.exp}}}")
     if expr.is_Mul:
-        num, den = sp.fraction(expr)
-        factors = sp.Mul.make_args(num)
-        longest = max(factors, key=_plain_length)
+        # The factors as they stand (sp.fraction would distribute a number over a sum).
+        factors = [f for f in expr.args if not (f.is_Pow and f.exp.is_negative)]
+        den = sp.Mul(*[f.base ** (-f.exp) for f in expr.args if f.is_Pow and f.exp.is_negative])
+        longest = max(factors, key=_plain_length) if factors else sp.Integer(1)
+        rest = sp.Mul(*[f for f in factors if f is not longest])
+        head = "" if rest == 1 else ("- " if rest == -1 else pr.doprint(rest) + " ")
+        long_den = den != 1 and _plain_length(den) > width // 2
+        if den != 1 and not long_den:
+            head += rf"\frac{{1}}{{{pr.doprint(den)}}}"
         if longest.is_Add:
-            rest = sp.Mul(*[f for f in factors if f is not longest])
-            head = "" if rest == 1 else ("- " if rest == -1 else pr.doprint(rest) + " ")
-            if den != 1:
-                head += rf"\frac{{1}}{{{pr.doprint(den)}}}"
-            inner = _chunks(longest, pr, width)
-            return [head + r"\bigl(" + inner[0], *inner[1:-1], inner[-1] + r"\bigr)"] \
-                if len(inner) > 1 else [head + r"\bigl(" + inner[0] + r"\bigr)"]
+            pieces = _wrap_pieces(_chunks(longest, pr, width), head + r"\bigl(", r"\bigr)")
+        else:
+            pieces = [head + pr.doprint(longest)]
+        if long_den:
+            # A long denominator goes after the numerator, as a factor (...)^{-1}.
+            pieces += _wrap_pieces(_chunks(den, pr, width), r"\times \bigl(", r"\bigr)^{-1}")
+        return pieces
     return [pr.doprint(expr)]
+
+
+def _wrap_pieces(pieces: list[str], left: str, right: str) -> list[str]:
+    """``pieces`` with ``left`` before the first and ``right`` after the last."""
+    if len(pieces) == 1:
+        return [left + pieces[0] + right]
+    return [left + pieces[0], *pieces[1:-1], pieces[-1] + right]
 
 
 def _rows(name: str, expr: sp.Expr, pr: _Printer, width: int = ROW_WIDTH) -> list[str]:
@@ -294,10 +323,9 @@ def presentation_latex(p: Presentation, *, levels: bool = True, where=None,
     return "\n".join(out)
 
 
-_PREAMBLE = [r"\documentclass[11pt]{article}", r"\usepackage[T1]{fontenc}",
-             r"\usepackage{amsmath}", r"\usepackage{longtable}",
-             r"\usepackage[margin=2cm]{geometry}", r"\allowdisplaybreaks",
-             r"\setlength{\parindent}{0pt}", r"\begin{document}"]
+_PREAMBLE = [r"\documentclass[11pt]{article}", r"\usepackage{amsmath}",
+             r"\usepackage{longtable}", r"\allowdisplaybreaks",
+             r"\setlength{\parindent}{0pt}", r"\begin{document}", r"\raggedright"]
 
 
 def latex_report(title: str, header: Sequence[str],
@@ -345,7 +373,9 @@ def latex_report(title: str, header: Sequence[str],
     shared, common, rest = split_shared(ps)
     if shared:
         p0 = ps[0]
-        names = latex_names(p0)
+        names: dict = {}
+        for p in ps:
+            names.update(latex_names(p))
         out.append(r"\subsection*{Levels}")
         out += _level_table(p0, names)
         if common:

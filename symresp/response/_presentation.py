@@ -36,7 +36,8 @@ from __future__ import annotations
 
 import itertools
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from functools import lru_cache
 
 import sympy as sp
 from sympy.core.mul import _keep_coeff
@@ -45,7 +46,7 @@ from ..conventions import RESERVED_NAMES, beta, omega, t
 from ..errors import InputError
 from ..models import Clock
 from ..spectrum import LevelRoot
-from ._derive import Derivation, _equal_weights, _sample_point, present
+from ._derive import Derivation, _equal_weights, _sample_point, present, present_shortest
 from ._present import boltzmann_form, merge_exponentials
 from ._render import formula_text, presentation_text
 
@@ -112,11 +113,8 @@ class TransitionRow:
     frequency: sp.Expr
     up: sp.Expr
     down: sp.Expr
-
-    @property
-    def symmetric(self) -> bool:
-        """True when :math:`W_{ab} = W_{ba}` (e.g. A = B Hermitian): one merged pole pair."""
-        return _equal_weights(self.up, self.down)
+    #: True when :math:`W_{ab} = W_{ba}` (e.g. A = B Hermitian): one merged pole pair.
+    symmetric: bool = field(default=False)
 
 
 @dataclass(frozen=True, slots=True)
@@ -215,16 +213,47 @@ class _Names:
         return sp.Symbol(name, **assumptions)
 
 
+@lru_cache(maxsize=4096)
 def _cost(expr: sp.Expr) -> int:
+    """The measured cost of a form: the length of its printed text."""
     return len(formula_text(expr))
 
 
+def _small(expr: sp.Expr, limit: int) -> bool:
+    """True when ``expr`` has at most ``limit`` tree nodes (stops counting early, unlike
+    ``count_ops`` on a large expression)."""
+    return sum(1 for _ in itertools.islice(sp.preorder_traversal(expr), limit + 1)) <= limit
+
+
+def _implicit(expr: sp.Expr, roots: frozenset = frozenset()) -> bool:
+    """Whether ``expr`` holds implicit roots (or the names ``roots`` given to them)."""
+    expr = sp.sympify(expr)  # safe: a sympy object
+    return expr.has(sp.CRootOf, LevelRoot) or bool(roots and expr.free_symbols & roots)
+
+
+def _same(a: sp.Expr, b: sp.Expr, point: dict, roots: dict | None = None) -> bool:
+    """Exact equality of two weights; numeric at 30 digits for the (large) weights of
+    semi-closed blocks (``roots`` maps the names of implicit roots back to the roots), where
+    expanding would cost far more than it decides."""
+    if a == b:
+        return True
+    names = frozenset(roots or ())
+    if not (_implicit(a, names) or _implicit(b, names)):
+        return _equal_weights(a, b)
+    diff = (a - b).xreplace(roots or {})
+    shifted = {k: v + sp.Rational(1, 7) for k, v in point.items()}
+    values = [complex(sp.N(diff.subs(pt), 30)) for pt in (point, shifted)]
+    scale = max(1.0, abs(complex(sp.N(a.xreplace(roots or {}).subs(point), 30))))
+    return all(abs(v) <= 1e-20 * scale for v in values)
+
+
 def _shortest(candidates) -> sp.Expr:
+    """The candidate of least measured cost (printed length, then operation count)."""
     best, best_key = None, None
     for c in candidates:
         if c is None:
             continue
-        key = (_cost(c), sp.count_ops(c))
+        key = (_cost(c), sp.count_ops(c) if _small(c, 4 * TIDY_MAX_OPS) else 0)
         if best_key is None or key < best_key:
             best, best_key = c, key
     return best
@@ -237,11 +266,11 @@ def _value_at(expr: sp.Expr, point: dict) -> float:
         return 0.0
 
 
-def _linear(terms: dict[sp.Symbol, sp.Expr], rank: dict) -> sp.Expr:
+def _linear(terms: dict[sp.Symbol, sp.Expr], rank: dict, roots: frozenset = frozenset()) -> sp.Expr:
     """:math:`\\sum_i c_i p_i` with equal coefficients grouped: ``c*(p1 + p2)``."""
     groups: dict[sp.Expr, list[sp.Symbol]] = {}
     for p, c in terms.items():
-        c = sp.cancel(c) if sp.count_ops(c) <= TIDY_MAX_OPS else c
+        c = sp.cancel(c) if _small(c, TIDY_MAX_OPS) and not _implicit(c, roots) else c
         if c == 0:
             continue
         for key in groups:
@@ -286,6 +315,8 @@ class _Builder:
         self.defs: list[Definition] = []
         self.closed_allowed = True
         self._roots()
+        self.roots = frozenset(self.root_map.values())
+        self.root_values = {sym: r for r, sym in self.root_map.items()}
         self._radicals()
         self.energy = {a: self.named(lv.energy) for a, lv in enumerate(d.levels)}
         self.E = {a: self.names(f"E{self.label[a]}", real=True) for a in range(L)}
@@ -356,7 +387,7 @@ class _Builder:
                 rep[p] = self.radicals[p.base] ** int(2 * p.exp)
         if rep:
             expr = expr.xreplace(rep)
-        if sp.count_ops(expr) <= TIDY_MAX_OPS:
+        if _small(expr, TIDY_MAX_OPS):
             for X, R in self.radicals.items():
                 if expr.free_symbols & X.free_symbols:
                     expr = expr.subs(X, R**2)
@@ -365,9 +396,9 @@ class _Builder:
     def tidy(self, expr: sp.Expr) -> sp.Expr:
         """Shortest of the expression, its cancelled and its factored form."""
         expr = sp.sympify(expr)  # safe: a sympy object from the derivation
-        if expr.is_Atom or self.out_of_time() or sp.count_ops(expr) > TIDY_MAX_OPS:
+        if expr.is_Atom or self.out_of_time() or not _small(expr, TIDY_MAX_OPS):
             return expr
-        if expr.has(sp.CRootOf, LevelRoot, sp.exp):
+        if expr.has(sp.exp) or _implicit(expr, self.roots):
             return expr
         return _shortest([expr, sp.cancel(expr), sp.factor(expr)])
 
@@ -384,6 +415,7 @@ class _Builder:
         L = len(self.d.levels)
         self.x = {a: sp.exp(-beta * self.gap(self.ref, a)) for a in range(L)}
         plain = sp.Add(*[self.d.levels[a].degeneracy * self.x[a] for a in self.order])
+        self.z_plain = plain
         self.z_rank = {self.x[a]: self.label[a] for a in range(L)}
         candidates = [plain]
         if (L <= Z_FORM_MAX_LEVELS and not self.out_of_time()
@@ -415,7 +447,8 @@ class _Builder:
             up = self.tidy(self.named(W.get((lo, hi), sp.Integer(0))))
             down = self.tidy(self.named(W.get((hi, lo), sp.Integer(0))))
             rows.append((lo, hi, TransitionRow(self.label[lo], self.label[hi], self.gap(lo, hi),
-                                               up, down)))
+                                               up, down, _same(up, down, self.point,
+                                                                  self.root_values))))
         rows.sort(key=lambda r: (r[2].lower, r[2].upper))
         self.pairs = [(lo, hi, row) for lo, hi, row in rows]
         return [row for _, _, row in rows]
@@ -446,12 +479,19 @@ class _Poles:
         for k, (Om, sym, members) in enumerate(_pole_groups(b)):
             g = {"Omega": Om, "symmetric": sym, "members": members, "index": k + 1}
             # +Omega: sum (p_lo - p_hi) W_up;  -Omega: sum (p_hi - p_lo) W_down
-            g["up"] = self._weight(members, "up")
-            g["down"] = -g["up"] if sym else self._weight(members, "down")
+            g["up"], g["up_closed"] = self._weight(members, "up")
+            if sym:
+                g["down"] = -g["up"]
+                g["down_closed"] = None if g["up_closed"] is None else -g["up_closed"]
+            else:
+                g["down"], g["down_closed"] = self._weight(members, "down")
             self.groups.append(g)
+        self.closed = bool(self.groups) and all(
+            g["up_closed"] is not None and g["down_closed"] is not None for g in self.groups)
         self._choose_names(quantities)
 
-    def _weight(self, members, direction: str) -> sp.Expr:
+    def _weight(self, members, direction: str) -> tuple[sp.Expr, sp.Expr | None]:
+        """(shortest form in the where-list names, closed form in the parameters or None)."""
         b = self.b
         coef: dict[sp.Symbol, sp.Expr] = {}
         pairs: dict[sp.Expr, sp.Expr] = {}
@@ -465,14 +505,19 @@ class _Poles:
             coef[b.p[second]] = coef.get(b.p[second], 0) - W
             pairs[W] = pairs.get(W, sp.Integer(0)) + b.p[first] - b.p[second]
             raw += (b.x[first] - b.x[second]) * W
-        pop = _linear(coef, self.rank)
         pair_form = sp.Add(*[_keep_coeff(W, s) if W.is_Number else W * s
                              for W, s in pairs.items()])
+        if _implicit(pair_form, b.roots) or not _small(pair_form, 4 * TIDY_MAX_OPS):
+            return pair_form, None           # large exact weights of a semi-closed block
+        pop = _linear(coef, self.rank, b.roots)
         candidates = [pop, sp.factor_terms(pop), pair_form, sp.factor_terms(pair_form)]
-        if (b.closed_allowed and not b.out_of_time() and sp.count_ops(raw) <= CLOSED_MAX_OPS
-                and not raw.has(sp.CRootOf, LevelRoot)):
+        closed = None
+        if (b.closed_allowed and not b.out_of_time() and not _implicit(raw, b.roots)
+                and _small(raw, 2 * CLOSED_MAX_OPS) and sp.count_ops(raw) <= CLOSED_MAX_OPS):
             candidates.append(present(raw) / b.Z)
-        return _shortest(candidates)
+            # The whole weight in closed form, Z written out (tanh/coth forms live here).
+            closed = present_shortest(raw / b.z_plain)
+        return _shortest(candidates), closed
 
     def _choose_names(self, quantities) -> None:
         uses_w = sum(q in quantities for q in ("isolated", "frequency", "time"))
@@ -596,7 +641,8 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
         if not b.closed_allowed or b.out_of_time():
             return None
         expr = getter()
-        if expr.has(sp.CRootOf, LevelRoot) or sp.count_ops(expr) > CLOSED_MAX_OPS:
+        if (_implicit(expr) or not _small(expr, 2 * CLOSED_MAX_OPS)
+                or sp.count_ops(expr) > CLOSED_MAX_OPS):
             return None
         return b.named(expr)
 
@@ -610,24 +656,44 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
         else:
             iso_terms.append((poles.w(g, "up") - poles.w(g, "down")) / Om)
     iso_poles = s * sp.Add(*iso_terms)
+
+    def pole_sums(weight) -> dict[str, sp.Expr]:
+        """isolated, frequency and time as sums over the pole groups, weights from ``weight``."""
+        iso, freq, tim = [], [], []
+        for g in poles.groups:
+            Om = poles.Om(g)
+            up, down = weight(g, "up"), weight(g, "down")
+            if g["symmetric"]:
+                iso.append(2 * up / Om)
+                freq.append(2 * Om * up / (Om**2 - omega**2))
+                tim.append(2 * up * sp.sin(Om * t))
+            else:
+                iso.append((up - down) / Om)
+                freq.append(up / (Om - sig * omega) + down / (-Om - sig * omega))
+                tim.append(sp.I * (up * sp.exp(-sp.I * Om * t) + down * sp.exp(sp.I * Om * t)))
+        return {"isolated": s * sp.Add(*iso), "frequency": s * sp.Add(*freq),
+                "time": s * sp.Add(*tim)}
+
+    closed_poles = pole_sums(lambda g, which: g[which + "_closed"]) if poles.closed else {}
     # Population form: chi_isol = sum_a c_a p_a, c_a = sum_b (W_ab + W_ba)/(E_b - E_a).
     coef: dict[sp.Symbol, sp.Expr] = {}
     for lo, hi, row in b.pairs:
         S = (row.up + row.down) / row.frequency
         coef[b.p[lo]] = coef.get(b.p[lo], 0) + S
         coef[b.p[hi]] = coef.get(b.p[hi], 0) - S
-    iso_pop = s * _linear({p: b.tidy(c) for p, c in coef.items()}, poles.rank)
+    iso_pop = s * _linear({p: b.tidy(c) for p, c in coef.items()}, poles.rank, b.roots)
     if "isolated" in qs:
         cands["isolated"] = [(iso_poles, "poles"), (iso_pop, "populations"),
-                             (closed(lambda: d.static("isolated")), "closed")]
+                             (closed(lambda: d.static("isolated")), "closed"),
+                             (closed_poles.get("isolated"), "closed")]
     mean_defs: list[Definition] = []
     if "isothermal" in qs:
         elastic = _linear({b.p[a]: b.tidy(b.named(W)) for (a, c), W in d.level_weights.items()
-                           if a == c}, poles.rank)
+                           if a == c}, poles.rank, b.roots)
         means = []
         pairs_ab = (("A", d.expect_A),) if d.A == d.B else (("A", d.expect_A), ("B", d.expect_B))
         for name, ex in pairs_ab:
-            m = _linear({b.p[a]: b.tidy(b.named(v)) for a, v in ex.items()}, poles.rank)
+            m = _linear({b.p[a]: b.tidy(b.named(v)) for a, v in ex.items()}, poles.rank, b.roots)
             if _cost(m) > MEAN_NAME_LENGTH:
                 sym = b.names(f"{name}_mean")
                 mean_defs.append(Definition(sym, m, "mean",
@@ -651,7 +717,7 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
                 terms.append(poles.w(g, "up") / (Om - sig * omega)
                              + poles.w(g, "down") / (-Om - sig * omega))
         cands["frequency"] = [(s * sp.Add(*terms), "poles"),
-                              (closed(lambda: d.frequency(omega)), "closed")]
+                              (closed_poles.get("frequency"), "closed")]
     if "time" in qs and conv.prescription != "advanced":
         terms = []
         for g in poles.groups:
@@ -661,7 +727,7 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
             else:
                 terms.append(sp.I * (poles.w(g, "up") * sp.exp(-sp.I * Om * t)
                                      + poles.w(g, "down") * sp.exp(sp.I * Om * t)))
-        cands["time"] = [(s * sp.Add(*terms), "poles"), (closed(lambda: d.time(t)), "closed")]
+        cands["time"] = [(s * sp.Add(*terms), "poles"), (closed_poles.get("time"), "closed")]
     elif "time" in qs:
         b.notes.append("chi(t) of the advanced convention vanishes for t > 0")
 
@@ -683,7 +749,7 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
     fixed_need: set[sp.Symbol] = set(b.root_map.values()) | set(b.radicals.values())
     if "correlation" in qs:
         elastic = _linear({b.p[a]: b.tidy(b.named(W)) for (a, c), W in d.level_weights.items()
-                           if a == c}, poles.rank)
+                           if a == c}, poles.rank, b.roots)
         if elastic != 0:
             lines.append(Line(sp.Integer(0), elastic))
         for g in poles.groups:
@@ -696,9 +762,9 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
                 if row.down != 0:
                     dnw[b.p[hi]] = dnw.get(b.p[hi], 0) + row.down
             if upw:
-                lines.append(Line(sig * Om, _linear(upw, poles.rank)))
+                lines.append(Line(sig * Om, _linear(upw, poles.rank, b.roots)))
             if dnw:
-                lines.append(Line(-sig * Om, _linear(dnw, poles.rank)))
+                lines.append(Line(-sig * Om, _linear(dnw, poles.rank, b.roots)))
         for ln in lines:
             fixed_need |= _needed(ln.weight, by_symbol) | _needed(ln.frequency, by_symbol)
 
@@ -711,7 +777,7 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
             if e is None:
                 continue
             variants = [e]
-            if sp.count_ops(e) <= 4 * TIDY_MAX_OPS:
+            if _small(e, 4 * TIDY_MAX_OPS) and not _implicit(e, b.roots):
                 variants.append(sp.factor_terms(e))          # common factors pulled out
             for v in variants:
                 if v in seen:
