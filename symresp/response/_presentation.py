@@ -56,7 +56,8 @@ __all__ = ["Presentation", "Definition", "LevelRow", "TransitionRow", "Line", "F
 #: Quantities a presentation can hold, in printing order.
 PRESENTED_QUANTITIES = ("isothermal", "isolated", "frequency", "time", "correlation")
 #: Kinds of where-list entries, in the order they are listed.
-DEFINITION_KINDS = ("root", "radical", "partition", "population", "mean", "frequency", "weight")
+DEFINITION_KINDS = ("root", "constant", "radical", "partition", "population", "mean",
+                    "frequency", "weight")
 #: Explicit where-list lines of one kind longer than this in total are printed generically.
 COLLAPSE_LENGTH = 300
 #: Names of the formulas (plain text; LaTeX names live in the emitters).
@@ -259,6 +260,11 @@ def _shortest(candidates) -> sp.Expr:
     return best
 
 
+def _long_number(r: sp.Rational) -> bool:
+    """A rational with more than 12 digits in all: better named than repeated."""
+    return r.is_Rational and len(str(abs(r.p))) + len(str(r.q)) > 12
+
+
 def _value_at(expr: sp.Expr, point: dict) -> float:
     try:
         return float(complex(sp.N(sp.sympify(expr).subs(point), 30)).real)  # safe: sympy object
@@ -318,6 +324,7 @@ class _Builder:
         self.roots = frozenset(self.root_map.values())
         self.root_values = {sym: r for r, sym in self.root_map.items()}
         self._radicals()
+        self._constants()
         self.energy = {a: self.named(lv.energy) for a, lv in enumerate(d.levels)}
         self.E = {a: self.names(f"E{self.label[a]}", real=True) for a in range(L)}
 
@@ -374,9 +381,43 @@ class _Builder:
             self.radicals[X] = R
             self.defs.append(Definition(R, sp.sqrt(X), "radical", "radical of the level energies"))
 
+    def _constants(self) -> None:
+        """Long exact numbers (a conversion factor such as mu_B in cm^-1/T) get a name; other
+        long numbers that are simple multiples of a named one are written with it."""
+        self.constants: dict[sp.Rational, sp.Symbol] = {}
+        sources = [self.d.levels[a].energy for a in self.order]
+        sources += [*self.d.level_weights.values(), *self.d.expect_A.values(),
+                    *self.d.expect_B.values()]
+        found: list[sp.Rational] = []
+        for e in sources:
+            for r in sorted(sp.sympify(e).atoms(sp.Rational), key=abs):  # safe: sympy object
+                if _long_number(r) and abs(r) not in found:
+                    found.append(abs(r))
+        for r in found:
+            if self._constant_multiple(r) is not None:
+                continue
+            k = self.names(f"k{len(self.constants) + 1}", positive=True)
+            self.constants[r] = k
+            self.defs.append(Definition(k, r, "constant", "a constant of the model"))
+
+    def _constant_multiple(self, r: sp.Rational) -> sp.Expr | None:
+        for value, k in self.constants.items():
+            ratio = r / value
+            if not _long_number(ratio) and ratio != 0:
+                return ratio * k
+        return None
+
     def named(self, expr: sp.Expr) -> sp.Expr:
-        """``expr`` with implicit roots and radicals replaced by their names."""
+        """``expr`` with implicit roots, radicals and long constants replaced by their names."""
         expr = sp.sympify(expr)  # safe: a sympy object from the derivation
+        if self.constants:
+            rep = {}
+            for r in expr.atoms(sp.Rational):
+                if _long_number(r):
+                    m = self._constant_multiple(abs(r))
+                    if m is not None:
+                        rep[r] = m if r > 0 else -m
+            expr = expr.xreplace(rep) if rep else expr
         if self.root_map:
             expr = expr.xreplace({r: s for r, s in self.root_map.items() if expr.has(r)})
         if not self.radicals:
@@ -801,7 +842,9 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
         need |= n
         if e.has(iso_sym):
             formula_symbols.append(("isolated", iso_sym))
-    kept = tuple(df for df in defs if df.symbol in need or df.kind == "root")
+    # Roots, constants and Z are always listed: the level table and the reader need them.
+    kept = tuple(df for df in defs
+                 if df.symbol in need or df.kind in ("root", "constant", "partition"))
     levels = tuple(
         LevelRow(b.label[a], a, b.E[a], b.energy[a], d.levels[a].degeneracy,
                  d.levels[a].quantum_numbers, _level_marks(d, a))

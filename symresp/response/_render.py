@@ -253,7 +253,7 @@ def where_lines(definitions, rank, *, indent: str = "  ", title: str = "where",
             out += wrap(f"{indent}  {d.symbol.name}: ", d.meaning, indent=indent + "    ")
             continue
         text = f"{d.symbol.name} = {formula_text(d.value, rank)}"
-        if len(text) <= 40 and d.kind in ("population", "frequency", "radical"):
+        if len(text) <= 40 and d.kind in ("population", "frequency", "radical", "constant"):
             if pending and len(";   ".join([*pending, text])) > WIDTH - len(indent) - 2:
                 flush()
             pending.append(text)
@@ -274,7 +274,7 @@ def presentation_text(p) -> list[str]:
 
 
 #: Where-list kinds that depend on the levels alone and can be shared by several responses.
-SHARED_KINDS = ("root", "radical", "partition", "population")
+SHARED_KINDS = ("root", "constant", "radical", "partition", "population")
 
 
 def split_shared(presentations) -> tuple[bool, list, list[list]]:
