@@ -436,7 +436,7 @@ class Response:
         Two-level system, :math:`A = B = \sigma_x` (detailed balance):
 
         >>> import sympy as sp, symresp as sr
-        >>> Delta = sp.Symbol("Delta", positive=True); q = sr.spin("q", sr.Rational(1, 2))
+        >>> Delta = sp.Symbol("Delta", positive=True); q = sr.spin("q", sp.Rational(1, 2))
         >>> r = sr.Model(Delta * q.z).response(2 * q.x)
         >>> r.correlation_lines()
         [(-Delta, 1/(exp(Delta*beta) + 1)), (Delta, 1/(1 + exp(-Delta*beta)))]
@@ -641,7 +641,7 @@ class Response:
         --------
         >>> import sympy as sp, symresp as sr
         >>> J = sp.Symbol("J", positive=True)
-        >>> a, b = sr.spin("a", sr.Rational(1, 2)), sr.spin("b", sr.Rational(1, 2))
+        >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
         >>> p = sr.Model(J * (a.vec @ b.vec)).response(a.z + b.z).presented(["isothermal"])
         >>> print(p.text())
           levels (2), lowest first: energy E_i, degeneracy g, quantum numbers

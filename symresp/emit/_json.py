@@ -32,7 +32,7 @@ def presentation_record(p: Presentation) -> dict[str, Any]:
     Examples
     --------
     >>> import sympy as sp, symresp as sr
-    >>> q = sr.spin("q", sr.Rational(1, 2)); D = sp.Symbol("Delta", positive=True)
+    >>> q = sr.spin("q", sp.Rational(1, 2)); D = sp.Symbol("Delta", positive=True)
     >>> rec = presentation_record(sr.Model(D * q.z).response(2 * q.x).presented())
     >>> rec["quantities"]["frequency"]["text"]
     '2*Delta*tanh(Delta*beta/2)/(Delta**2 - omega**2)'

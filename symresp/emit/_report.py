@@ -64,7 +64,7 @@ def latex_names(p: Presentation) -> dict[sp.Symbol, str]:
     Examples
     --------
     >>> import sympy as sp, symresp as sr
-    >>> q = sr.spin("q", sr.Rational(1, 2)); D = sp.Symbol("Delta", positive=True)
+    >>> q = sr.spin("q", sp.Rational(1, 2)); D = sp.Symbol("Delta", positive=True)
     >>> names = latex_names(sr.Model(D * q.z).response(2 * q.x).presented())
     >>> sorted(names.values())[:2]
     ['E_{1}', 'E_{2}']
@@ -300,7 +300,7 @@ def presentation_latex(p: Presentation, *, levels: bool = True, where=None,
     Examples
     --------
     >>> import sympy as sp, symresp as sr
-    >>> q = sr.spin("q", sr.Rational(1, 2)); D = sp.Symbol("Delta", positive=True)
+    >>> q = sr.spin("q", sp.Rational(1, 2)); D = sp.Symbol("Delta", positive=True)
     >>> body = presentation_latex(sr.Model(D * q.z).response(2 * q.x).presented())
     >>> print([line for line in body.splitlines() if line.startswith(r"\chi_{AB}(\omega)")][0])
     \chi_{AB}(\omega) &= \frac{2 \Delta \tanh{\left(\frac{\Delta \beta}{2} \right)}}{\Delta^{2} - \omega^{2}} \\
@@ -353,7 +353,7 @@ def latex_report(title: str, header: Sequence[str],
     Examples
     --------
     >>> import sympy as sp, symresp as sr
-    >>> q = sr.spin("q", sr.Rational(1, 2)); D = sp.Symbol("Delta", positive=True)
+    >>> q = sr.spin("q", sp.Rational(1, 2)); D = sp.Symbol("Delta", positive=True)
     >>> p = sr.Model(D * q.z).response(2 * q.x).presented()
     >>> doc = latex_report("two levels & a drive", ["H = Delta q.z"], [("x", "2 q.x", "2 q.x", p)])
     >>> doc.splitlines()[0], doc.rstrip().splitlines()[-1]

@@ -648,7 +648,7 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
     >>> import sympy as sp, symresp as sr
     >>> from symresp.response import derive, present_response
     >>> from symresp.models import System
-    >>> Delta = sp.Symbol("Delta", positive=True); q = sr.spin("q", sr.Rational(1, 2))
+    >>> Delta = sp.Symbol("Delta", positive=True); q = sr.spin("q", sp.Rational(1, 2))
     >>> p = present_response(derive(System.build(Delta * q.z), 2 * q.x, 2 * q.x))
     >>> p.formula("frequency").expr
     2*Delta*tanh(Delta*beta/2)/(Delta**2 - omega**2)

@@ -68,7 +68,7 @@ def test_latex_body_is_the_document_without_preamble(capsys):
 def test_user_text_is_escaped():
     assert escape_text(TRICKY) == ("a\\_b \\& 50\\% \\#1 \\{x\\} \\$y\\$ \\textasciitilde{} "
                                    "\\textasciicircum{} \\textbackslash{} end")
-    q = sr.spin("q", sr.Rational(1, 2))
+    q = sr.spin("q", sp.Rational(1, 2))
     D = sp.Symbol("Delta", positive=True)
     p = sr.Model(D * q.z).response(2 * q.x).presented()
     doc = latex_report(TRICKY, [TRICKY], [(TRICKY, TRICKY, TRICKY, p)])
@@ -95,7 +95,7 @@ def test_latex_document_compiles(name, tmp_path, capsys):
 
 def test_long_formulas_are_broken_into_rows():
     J1, J2 = sp.Symbol("J1", positive=True), sp.Symbol("J2", positive=True)
-    s = [sr.spin(f"s{k}", sr.Rational(1, 2)) for k in range(4)]
+    s = [sr.spin(f"s{k}", sp.Rational(1, 2)) for k in range(4)]
     H = J1 * sum((s[k].vec @ s[(k + 1) % 4].vec for k in range(4)), sr.Operator.scalar(0)) \
         + J2 * (s[0].vec @ s[2].vec + s[1].vec @ s[3].vec)
     p = sr.Model(H).response(s[0].z - s[1].z + s[2].z - s[3].z).presented()
