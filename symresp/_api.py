@@ -22,7 +22,9 @@ from ._public import public
 from .algebra import Operator, Site, describe, exact_decimal, to_array, to_sympy_matrix
 from .cases import find_case, read_case, with_values
 from .checks import Report, Verdict, compare, consistency
-from .emit import latex_document, numpy_functions, numpy_module_source
+from .emit import (draw_levels, draw_map, draw_spectrum, draw_static, draw_sweep, latex_document,
+                   level_scheme, level_sweep, numpy_functions, numpy_module_source, save_figure,
+                   spectral_map, spectrum, static_curves)
 from .conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from .errors import InputError
 from .models import Budget, System
@@ -659,6 +661,67 @@ class Response:
         values = _numeric_params(self._d.system, point)
         pt = {k: sp.Float(v.real) for k, v in values.items()}
         return present_response(self._d, tuple(quantities), point=pt, clock=budget.start())
+
+    def plot(self, kind: Literal["levels", "sweep", "spectrum", "map", "static"], *,
+             params: Mapping | None = None, T: float | None = None, eta: float | None = None,
+             parameter: str | None = None, values: object = None,
+             temperatures: object = None, kinds: tuple[str, ...] = ("chi", "chiT", "inverse"),
+             log_T: bool = False, data: object = None, data_kind: str = "chi",
+             path: object = None):
+        r"""A picture of the response as a matplotlib Figure (saved to ``path``, .png or .svg,
+        when given); needs the ``plot`` extra. See docs/pictures.md.
+
+        ``kind``: ``"levels"`` (levels in columns by quantum number, transitions as arrows
+        whose width is the weight :math:`(p_a - p_b)W_{ab}` at ``T``), ``"sweep"`` (levels
+        against ``parameter`` over ``values``, crossings marked), ``"spectrum"`` (lines
+        :math:`\pi w_k` and the broadened :math:`\chi''(\omega)` at ``T``, half width ``eta``),
+        ``"map"`` (:math:`\chi''(\omega, T)` over ``temperatures``), ``"static"`` (chi, chi*T
+        and 1/chi against ``temperatures``, ``kinds`` choosing the panels, measured ``data``
+        as (T, values) of ``data_kind`` overlaid). ``params`` gives every parameter by name.
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> J = sp.Symbol("J", positive=True)
+        >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
+        >>> r = sr.Model(J * (a.vec @ b.vec) + (a.z - b.z) / 4).response(a.x + b.x)
+        >>> fig = r.plot("levels", params={"J": 1.0}, T=0.5)
+        >>> len(fig.axes[0].patches)        # one arrow per transition with weight
+        2
+        """
+        allowed = ("levels", "sweep", "spectrum", "map", "static")
+        if kind not in allowed:
+            raise InputError(f"plot: kind={kind!r} must be one of {', '.join(allowed)}")
+        d = self._d
+        if kind in ("levels", "spectrum"):
+            if T is None:
+                raise InputError(f"plot: the {kind} picture needs a temperature T=")
+            fig = (draw_levels(level_scheme(d, params, T)) if kind == "levels"
+                   else draw_spectrum(spectrum(d, params, T, eta=eta)))
+        elif kind == "sweep":
+            if parameter is None or values is None:
+                raise InputError("plot: the sweep picture needs parameter= and values=")
+            full = dict(params or {})
+            full.setdefault(parameter, 0.0)
+            fig = draw_sweep(level_sweep(d, full, parameter, values))
+        else:
+            if temperatures is None:
+                raise InputError(f"plot: the {kind} picture needs temperatures=")
+            if kind == "map":
+                fig = draw_map(spectral_map(d, params, temperatures, eta=eta))
+            else:
+                overlay = None
+                if data is not None:
+                    try:
+                        xs, ys = (np.asarray(v, dtype=float) for v in data)
+                    except (TypeError, ValueError):
+                        raise InputError("plot: data must be (temperatures, values)") from None
+                    overlay = (xs, ys)
+                fig = draw_static(static_curves(d, params, temperatures), kinds=kinds,
+                                  log_T=log_T, data=overlay, data_kind=data_kind)
+        if path is not None:
+            save_figure(fig, path)
+        return fig
 
     def summary(self) -> str:
         """A readable derivation summary: levels, transitions, Z, static and dynamic chi.

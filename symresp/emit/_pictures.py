@@ -235,12 +235,14 @@ def spectrum(d: Derivation, params: Mapping | None, T: float, *, eta: float | No
     poles = _poles_at(d, values, T)
     top = max([abs(f) for f, _ in poles] + [0.0]) or 1.0
     width = _positive("eta", eta) if eta is not None else 0.02 * top
+    # Absorption side by default: chi'' of A = B^dagger is odd in omega.
     grid = (np.asarray(omega, dtype=float) if omega is not None
-            else np.linspace(-1.25 * top - 4 * width, 1.25 * top + 4 * width, 1201))
+            else np.linspace(0.0, 1.25 * top + 4 * width, 1201))
     mod = numpy_functions(d)
     curve = np.asarray(mod.chi_spectral(grid, T, *[values[n] for n in _original_names(mod, values)],
                                         eta=width), dtype=complex).real
-    lines = tuple(sorted((f, math.pi * w) for f, w in poles))
+    lo, hi = float(grid.min()), float(grid.max())
+    lines = tuple(sorted((f, math.pi * w) for f, w in poles if lo <= f <= hi))
     return Spectrum(lines, grid, curve, T, width)
 
 
@@ -265,7 +267,7 @@ def spectral_map(d: Derivation, params: Mapping | None, temperatures: Sequence[f
     top = max([abs(f) for f, _ in poles] + [0.0]) or 1.0
     width = _positive("eta", eta) if eta is not None else 0.02 * top
     grid = (np.asarray(omega, dtype=float) if omega is not None
-            else np.linspace(-1.25 * top - 4 * width, 1.25 * top + 4 * width, 401))
+            else np.linspace(0.0, 1.25 * top + 4 * width, 401))
     mod = numpy_functions(d)
     vals = np.asarray(mod.chi_spectral(grid[None, :], Ts[:, None],
                                        *[values[n] for n in _original_names(mod, values)],
