@@ -50,7 +50,9 @@ def render_plots(case: Case, label: str, d: Derivation,
     against a swept parameter when asked."""
     stem = f"{safe_stem(case.name)}-{safe_stem(label)}"
     unit = case.energy_unit
-    params = {p.name: float(v) for p, v in case.defaults.items()}
+    # Only the parameters the derived model still has (--set NAME=0 can remove one).
+    names = {p.name for p in d.system.parameters}
+    params = {p.name: float(v) for p, v in case.defaults.items() if p.name in names}
     missing = [p.name for p in d.system.parameters if p.name not in params]
     if missing:
         raise InputError(f"{case.source}: pictures need a value for every parameter; add value = "

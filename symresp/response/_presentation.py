@@ -806,6 +806,9 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
                 lines.append(Line(sig * Om, _linear(upw, poles.rank, b.roots)))
             if dnw:
                 lines.append(Line(-sig * Om, _linear(dnw, poles.rank, b.roots)))
+        subs_all = {df.symbol: df.value for df in defs}
+        lines.sort(key=lambda ln: _value_at(ln.frequency.xreplace(subs_all).xreplace(subs_all),
+                                            b.point))
         for ln in lines:
             fixed_need |= _needed(ln.weight, by_symbol) | _needed(ln.frequency, by_symbol)
 
