@@ -431,7 +431,7 @@ class Response:
         :math:`\tfrac12(p_n + p_m)A_{nm}B_{mn}`), ``kind="canonical"`` Kubo's canonical
         correlation (weights :math:`(p_n - p_m)A_{nm}B_{mn}/(\beta\Omega_k)`, elastic as plain).
         Fluctuation-dissipation: :math:`w_k = (1 - e^{-\beta\Omega_k}) s_k` for the poles
-        :math:`w_k` of :meth:`poles`; see docs/conventions.md, section 8.
+        :math:`w_k` of :meth:`poles`; see docs/conventions.md, section 9.
 
         Examples
         --------

@@ -580,7 +580,10 @@ def _correlation(d: Derivation, closed: _Closed, pts: list[_Point]) -> list[Chec
         keys = set(plain) | set(ref_lines)
         ref_dev.append(max((abs(plain.get(k_, [0, 0j])[1] - ref_lines.get(k_, 0j)) / scale
                             for k_ in keys), default=0.0))
-    rows = [_row("correlation: fluctuation-dissipation", rel_fdt, fdt, NUMERIC_TOL)]
+    if any(p.poles for p in pts):
+        rows = [_row("correlation: fluctuation-dissipation", rel_fdt, fdt, NUMERIC_TOL)]
+    else:
+        rows = [_na("correlation: fluctuation-dissipation", rel_fdt, "no transitions")]
     rows.append(_row("correlation: detailed balance", rel_db, db, NUMERIC_TOL) if sym else
                 _na("correlation: detailed balance", rel_db,
                     "A != B (in general S_AB(-w) = exp(-beta w) S_BA(w))"))

@@ -413,7 +413,7 @@ def _cmd_derive(args: argparse.Namespace, progress: _Progress) -> int:
     case = _load(args, progress)
     derived = _derive(case, args, progress)
     items = [(label, d, _quantities_of(case, label, args.quantity)) for label, d in derived]
-    progress("presenting")
+    progress("simplifying and printing")
     presented = present_case(case, items, clock=Budget(seconds=args.budget).start())
     if args.json:
         print(case_json(case, presented))

@@ -4,7 +4,7 @@ Owns :func:`correlation_lines` and :data:`CORRELATION_KINDS`. Imports sympy,
 :mod:`symresp.conventions`, :mod:`symresp.errors` and :mod:`._present` (the derivation type is
 used for annotations only).
 
-Definitions (pinned convention, :math:`\hbar = k_B = 1`; ``docs/conventions.md`` section 8):
+Definitions (pinned convention, :math:`\hbar = k_B = 1`; ``docs/conventions.md`` section 9):
 
 .. math::
 

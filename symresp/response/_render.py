@@ -102,6 +102,8 @@ def _breaks(text: str) -> list[tuple[int, int, int]]:
             depth -= stack.pop() if stack else 1
         elif ch == " " and text[i:i + 3] in (" + ", " - ") and i > 0:
             out.append((i + 1, depth, 0))          # the next line starts with the sign
+        elif ch == "/" and depth == 0:
+            out.append((i + 1, depth, 0.5))        # before a denominator: reads well
         elif ch in "*/," and text[i + 1:i + 2] != "*" and text[i - 1:i] != "*":
             out.append((i + 1, depth, 1))
     return out
