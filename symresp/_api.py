@@ -651,6 +651,8 @@ class Response:
             E2 = J/4     g = 3   Sz in {1, 0, -1}, S=1
           transitions: none (A and B only connect states within levels)
           chi_isothermal = 2*beta/(exp(J*beta) + 3)
+          where
+            Z = 1 + 3*exp(-J*beta)
         >>> sp.simplify(p.value("isothermal") - 2*sr.beta/(3 + sp.exp(sr.beta*J)))
         0
         """

@@ -156,7 +156,8 @@ def _correlation_sum(omega, T, P, eta, shape, kind):
         total = total + cu * _correlation_line(om - w[k], eta, shape)
         total = total + cd * _correlation_line(om + w[k], eta, shape)
     out = 2.0 * total / Z
-    if numpy.iscomplexobj(out) and numpy.all(numpy.abs(out.imag) <= 1e-14 * (1 + numpy.abs(out.real))):
+    small = numpy.abs(out.imag) <= 1e-14 * (1 + numpy.abs(out.real)) if numpy.iscomplexobj(out) else 0
+    if numpy.iscomplexobj(out) and numpy.all(small):
         out = out.real
     return float(out) if numpy.ndim(out) == 0 else out
 '''

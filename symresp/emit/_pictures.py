@@ -137,7 +137,8 @@ def level_scheme(d: Derivation, params: Mapping | None, T: float, *,
         first = lv.quantum_numbers[0] if lv.quantum_numbers else ()
         value = dict(first).get(group, "") if group else ""
         groups.append(str(value))
-        labels.append("; ".join(", ".join(f"{n}={v}" for n, v in lab) for lab in lv.quantum_numbers))
+        labels.append("; ".join(", ".join(f"{n}={v}" for n, v in lab)
+                                for lab in lv.quantum_numbers))
     x = np.exp(-(E - E.min()) / T)
     Zr = float(np.sum(np.array([lv.degeneracy for lv in d.levels]) * x))
     pop = x / Zr

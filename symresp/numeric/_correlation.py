@@ -143,7 +143,8 @@ def correlation_spectrum(H: object, A: object, B: object, beta: float, omega: ob
                          shape: str = "lorentzian") -> np.ndarray:
     r"""Broadened :math:`S(\omega) = 2\sum_k s_k L(\omega - \Omega_k)`, L the Lorentzian
     :math:`\eta/(x^2 + \eta^2)` (area :math:`\pi`) or the Gaussian of the same half width at
-    half maximum and area: the :math:`\eta \to 0` limit is :math:`2\pi\sum_k s_k\delta(\omega - \Omega_k)`.
+    half maximum and area: the :math:`\eta \to 0` limit is
+    :math:`2\pi\sum_k s_k\delta(\omega - \Omega_k)`.
 
     Examples
     --------

@@ -15,7 +15,8 @@ with lines at the level spacings :math:`\Omega = E_b - E_a` (levels a, b; popula
 :math:`p_a` per state, weights :math:`W_{ab} = \mathrm{Tr}(P_a A P_b B)`):
 
 * ``"plain"``: :math:`s = p_a W_{ab}`;
-* ``"symmetrised"`` (:math:`\tfrac12\langle\{A(t), B\}\rangle`): :math:`s = \tfrac12(p_a + p_b) W_{ab}`;
+* ``"symmetrised"`` (:math:`\tfrac12\langle\{A(t), B\}\rangle`):
+  :math:`s = \tfrac12(p_a + p_b) W_{ab}`;
 * ``"canonical"`` (Kubo's :math:`\beta^{-1}\int_0^\beta d\lambda\,
   \langle e^{\lambda H}Be^{-\lambda H}A(t)\rangle`):
   :math:`s = (p_a - p_b) W_{ab}/(\beta\Omega)`;

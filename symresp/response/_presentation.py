@@ -120,7 +120,8 @@ class TransitionRow:
 
 @dataclass(frozen=True, slots=True)
 class Line:
-    r"""A line of the correlation function: :math:`S(\omega) = 2\pi\sum_k s_k\,\delta(\omega - \Omega_k)`."""
+    r"""A line of the correlation function,
+    :math:`S(\omega) = 2\pi\sum_k s_k\,\delta(\omega - \Omega_k)`."""
 
     frequency: sp.Expr
     weight: sp.Expr
@@ -147,8 +148,8 @@ class Presentation:
     levels; ``correlation`` holds the lines of :math:`S_{AB}(\omega)` when asked for;
     ``notes`` say where a cheaper form was used because of the budget. ``collapsed`` lists the
     kinds of where-list entries ("population", "partition") that are printed in their generic
-    form (``symresp.response.GENERIC_FORMS``) because the explicit lines would be long; their explicit values
-    stay in ``definitions``.
+    form (``symresp.response.GENERIC_FORMS``) because the explicit lines would be long; their
+    explicit values stay in ``definitions``.
     """
 
     levels: tuple[LevelRow, ...]
@@ -342,7 +343,8 @@ class _Builder:
                     atoms.append(r)
         for e in (*self.d.level_weights.values(), *self.d.expect_A.values(),
                   *self.d.expect_B.values()):
-            for r in sorted(sp.sympify(e).atoms(sp.CRootOf, LevelRoot), key=sp.default_sort_key):  # safe
+            found = sp.sympify(e).atoms(sp.CRootOf, LevelRoot)  # safe: a sympy object
+            for r in sorted(found, key=sp.default_sort_key):
                 if r not in atoms:
                     atoms.append(r)
         x = sp.Symbol("x")

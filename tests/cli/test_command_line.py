@@ -45,6 +45,12 @@ def test_bundled_case_derives_and_verifies(name, capsys):
     assert main(["derive", name, "--quiet"]) == 0, capsys.readouterr().err
     out = capsys.readouterr().out
     assert "levels (" in out and "Z = " in out and "chi_isothermal = " in out
+    # Printed like a results section: after the case header (which repeats the case file) no
+    # line is longer than 400 characters, and the whole stays short (the six-site wheel
+    # printed 326 KB when formulas were written out in full).
+    body = out.split("\n== ", 1)[1]
+    assert max(len(line) for line in body.splitlines()) <= 400
+    assert len(out.encode()) < 20_000
     code = main(["verify", name, "--quiet", "--points", "2", "--seed", "7"])
     out = capsys.readouterr().out
     assert code == 0, out
