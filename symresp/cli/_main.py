@@ -414,7 +414,7 @@ def _cmd_derive(args: argparse.Namespace, progress: _Progress) -> int:
     derived = _derive(case, args, progress)
     items = [(label, d, _quantities_of(case, label, args.quantity)) for label, d in derived]
     progress("simplifying and printing")
-    presented = present_case(case, items, clock=Budget(seconds=args.budget).start())
+    presented = present_case(case, items)       # within the command's running budget
     if args.json:
         print(case_json(case, presented))
         return EXIT_OK

@@ -35,7 +35,6 @@ back, and the tests compare the result with the raw Lehmann sums at random point
 from __future__ import annotations
 
 import itertools
-import time
 from dataclasses import dataclass, field
 from functools import lru_cache
 
@@ -43,8 +42,8 @@ import sympy as sp
 from sympy.core.mul import _keep_coeff
 
 from ..conventions import RESERVED_NAMES, beta, omega, t
-from ..errors import InputError
-from ..models import Clock
+from ..errors import BudgetExceeded, InputError
+from ..models import Clock, checkpoint, current_clock
 from ..spectrum import LevelRoot
 from ._derive import Derivation, _equal_weights, _sample_point, present, present_shortest
 from ._present import boltzmann_form, merge_exponentials
@@ -69,6 +68,12 @@ CLOSED_MAX_OPS = 400
 TIDY_MAX_OPS = 300
 #: Boltzmann forms of the partition function are tried up to this many levels.
 Z_FORM_MAX_LEVELS = 24
+#: Share of the time left that the presentation may use before it falls back to the plain
+#: population sums (see :meth:`symresp.models.Clock.portion`).
+PRESENT_SHARE = 0.5
+#: The note left when the presentation falls back.
+CHEAP_NOTE = ("presentation budget reached: the formulas are plain Lehmann sums over the "
+              "populations p_i (raise --budget for the shortest forms)")
 #: Closed forms of whole formulas are tried up to this many levels.
 CLOSED_MAX_LEVELS = 16
 #: A thermal mean whose text is longer than this gets a name in the where-list.
@@ -321,6 +326,7 @@ class _Builder:
         self.ref = self.order[0]
         self.defs: list[Definition] = []
         self.closed_allowed = True
+        self.cheap = False
         self._roots()
         self.roots = frozenset(self.root_map.values())
         self.root_values = {sym: r for r, sym in self.root_map.items()}
@@ -331,7 +337,8 @@ class _Builder:
 
     # -------------------------------------------------------------- budget
     def out_of_time(self) -> bool:
-        return self.clock is not None and time.monotonic() > self.clock.deadline
+        """Past the share of time of the presentation: take the cheaper step."""
+        return self.cheap or (self.clock is not None and self.clock.expired())
 
     # -------------------------------------------------------------- radicals and roots
     def _roots(self) -> None:
@@ -485,6 +492,7 @@ class _Builder:
         for (a, b) in W:
             if a == b or (a, b) in seen:
                 continue
+            checkpoint("presenting the transitions")
             lo, hi = (a, b) if self.label[a] < self.label[b] else (b, a)
             seen |= {(a, b), (b, a)}
             up = self.tidy(self.named(W.get((lo, hi), sp.Integer(0))))
@@ -519,7 +527,9 @@ class _Poles:
         self.b = b
         self.rank = {b.p[a]: b.label[a] for a in b.p}
         self.groups = []
-        for k, (Om, sym, members) in enumerate(_pole_groups(b)):
+        groups = _pole_groups(b)
+        for k, (Om, sym, members) in enumerate(groups):
+            checkpoint("presenting the pole weights", f"group {k + 1} of {len(groups)}")
             g = {"Omega": Om, "symmetric": sym, "members": members, "index": k + 1}
             # +Omega: sum (p_lo - p_hi) W_up;  -Omega: sum (p_hi - p_lo) W_down
             g["up"], g["up_closed"] = self._weight(members, "up")
@@ -550,7 +560,8 @@ class _Poles:
             raw += (b.x[first] - b.x[second]) * W
         pair_form = sp.Add(*[_keep_coeff(W, s) if W.is_Number else W * s
                              for W, s in pairs.items()])
-        if _implicit(pair_form, b.roots) or not _small(pair_form, 4 * TIDY_MAX_OPS):
+        if (b.cheap or _implicit(pair_form, b.roots)
+                or not _small(pair_form, 4 * TIDY_MAX_OPS)):
             return pair_form, None           # large exact weights of a semi-closed block
         pop = _linear(coef, self.rank, b.roots)
         candidates = [pop, sp.factor_terms(pop), pair_form, sp.factor_terms(pair_form)]
@@ -667,17 +678,37 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
         raise InputError(f"present_response: unknown quantity {bad[0]!r} (choose from "
                          f"{', '.join(PRESENTED_QUANTITIES)})")
     qs = tuple(q for q in PRESENTED_QUANTITIES if q in qs)
+    outer = clock if clock is not None else current_clock()
+    if outer is None:
+        return _present(d, qs, point, None, cheap=False)
+    part = outer.portion(PRESENT_SHARE, "presenting the formulas")
+    try:
+        with part.running():
+            return _present(d, qs, point, part, cheap=False)
+    except BudgetExceeded as err:
+        if not Clock.is_fallback(err, part):
+            raise
+    outer.note(CHEAP_NOTE)
+    return _present(d, qs, point, None, cheap=True)
+
+
+def _present(d: Derivation, qs: tuple[str, ...], point: dict | None, clock: Clock | None, *,
+             cheap: bool) -> Presentation:
+    """The presentation (see :func:`present_response`); ``cheap``: the plain population sums
+    only (no closed forms, no factoring), the fallback when time is short."""
     b = _Builder(d, point, clock)
-    b.closed_allowed = len(d.levels) <= CLOSED_MAX_LEVELS
+    b.cheap = cheap
+    b.closed_allowed = len(d.levels) <= CLOSED_MAX_LEVELS and not cheap
+    if cheap:
+        b.notes.append(CHEAP_NOTE)
     b.thermal()
     transitions = b.transitions()
     poles = _Poles(b, qs)
     conv = d.convention
     s, sig = conv.sign, conv.frequency_sign
     iso_sym = b.names("chi_isolated")
-    if b.out_of_time():
-        b.notes.append("presentation budget reached: formulas are Lehmann sums over the "
-                       "populations p_i; closed forms were not tried")
+    if b.out_of_time() and not cheap:
+        b.notes.append(CHEAP_NOTE)
 
     def closed(getter) -> sp.Expr | None:
         """A closed form of the derivation with the where-list names, or None if too big."""
@@ -823,7 +854,7 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
             if e is None:
                 continue
             variants = [e]
-            if _small(e, 4 * TIDY_MAX_OPS) and not _implicit(e, b.roots):
+            if not b.cheap and _small(e, 4 * TIDY_MAX_OPS) and not _implicit(e, b.roots):
                 variants.append(sp.factor_terms(e))          # common factors pulled out
             for v in variants:
                 if v in seen:
@@ -833,7 +864,9 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
         scored[q] = options
     order_q = [q for q in PRESENTED_QUANTITIES if q in scored]
     best, best_cost = None, None
-    for combo in itertools.product(*[scored[q] for q in order_q]):
+    for n, combo in enumerate(itertools.product(*[scored[q] for q in order_q])):
+        if n % 256 == 0:
+            checkpoint("choosing the shortest forms")
         if "isolated" not in order_q and any(e.has(iso_sym) for e, *_ in combo):
             continue
         need = set(fixed_need).union(*[n for *_, n in combo]) if combo else set(fixed_need)

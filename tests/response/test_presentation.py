@@ -242,13 +242,28 @@ def test_population_form_takes_over_where_closed_forms_are_long():
             assert abs(sp.N((p.value(q) - raw).subs(pt), 30)) < 1e-20
 
 
-def test_an_exhausted_budget_gives_population_sums_and_a_note():
+def test_an_exhausted_share_of_the_budget_gives_population_sums_and_a_note(monkeypatch):
+    # The presentation may use a share of the time left; past it, it falls back to the plain
+    # population sums with a note instead of failing (the whole budget is not used up here).
     from symresp.models import Budget
+    from symresp.response import _presentation
+    monkeypatch.setattr(_presentation, "PRESENT_SHARE", 1e-12)
     q = sr.spin("q", HALF)
     r = sr.Model(J * q.z + h * q.x).response(q.z)
-    clock = Budget(seconds=1e-9).start()
-    p = present_response(r.derivation, ("isothermal", "frequency"), clock=clock)
-    assert any("budget" in n for n in p.notes)
+    clock = Budget(seconds=60).start()
+    with clock.running():
+        p = present_response(r.derivation, ("isothermal", "frequency"))
+    assert any("budget" in n for n in p.notes) and any("budget" in n for n in clock.notes)
     assert all(f.form != "closed" for f in p.formulas)
     pt = {J: sp.Rational(1, 2), h: sp.Rational(1, 3), beta: 2, sr.omega: sp.Rational(1, 7)}
     assert abs(sp.N((p.value("isothermal") - r.static("isothermal")).subs(pt), 30)) < 1e-25
+    assert abs(sp.N((p.value("frequency") - r.frequency()).subs(pt), 30)) < 1e-25
+
+
+def test_an_exhausted_whole_budget_is_an_error():
+    from symresp.errors import BudgetExceeded
+    from symresp.models import Budget
+    q = sr.spin("q", HALF)
+    r = sr.Model(J * q.z + h * q.x).response(q.z)
+    with pytest.raises(BudgetExceeded, match="presenting"):
+        present_response(r.derivation, ("isothermal",), clock=Budget(seconds=1e-9).start())
