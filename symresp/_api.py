@@ -22,11 +22,13 @@ from ._public import public
 from .algebra import Operator, Site, describe, exact_decimal, to_array, to_sympy_matrix
 from .cases import find_case, read_case, with_values
 from .checks import Report, Verdict, compare, consistency
-from .emit import latex_document, numpy_functions, numpy_module_source
+from .emit import (draw_levels, draw_map, draw_spectrum, draw_static, draw_sweep, latex_document,
+                   level_scheme, level_sweep, numpy_functions, numpy_module_source, save_figure,
+                   spectral_map, spectrum, static_curves)
 from .conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from .errors import InputError
 from .models import Budget, System
-from .response import Derivation, Level, Transition, derive
+from .response import Derivation, Level, Presentation, Transition, derive, present_response
 
 __all__ = ["Model", "Response", "load_case"]
 
@@ -417,6 +419,37 @@ class Response:
         with self._budgeted():
             return self._d.spectral_lines()
 
+    def correlation_lines(self, kind: Literal["plain", "symmetrised", "canonical"] = "plain"
+                          ) -> list[tuple[sp.Expr, sp.Expr]]:
+        r"""Lines :math:`[(\Omega_k, s_k)]` of the correlation function
+        :math:`S_{AB}(\omega) = \int dt\, e^{i\omega t}\langle A(t) B\rangle
+        = 2\pi\sum_k s_k\,\delta(\omega - \Omega_k)`.
+
+        :math:`s_k = \sum_{E_m - E_n = \Omega_k} p_n A_{nm} B_{mn}`; the pairs inside a
+        degenerate level give the elastic line at :math:`\Omega = 0`. ``kind="symmetrised"``
+        gives :math:`\tfrac12\langle\{A(t), B\}\rangle` (weights
+        :math:`\tfrac12(p_n + p_m)A_{nm}B_{mn}`), ``kind="canonical"`` Kubo's canonical
+        correlation (weights :math:`(p_n - p_m)A_{nm}B_{mn}/(\beta\Omega_k)`, elastic as plain).
+        Fluctuation-dissipation: :math:`w_k = (1 - e^{-\beta\Omega_k}) s_k` for the poles
+        :math:`w_k` of :meth:`poles`; see docs/conventions.md, section 9.
+
+        Examples
+        --------
+        Two-level system, :math:`A = B = \sigma_x` (detailed balance):
+
+        >>> import sympy as sp, symresp as sr
+        >>> Delta = sp.Symbol("Delta", positive=True); q = sr.spin("q", sp.Rational(1, 2))
+        >>> r = sr.Model(Delta * q.z).response(2 * q.x)
+        >>> r.correlation_lines()
+        [(-Delta, 1/(exp(Delta*beta) + 1)), (Delta, 1/(1 + exp(-Delta*beta)))]
+        >>> r.correlation_lines("symmetrised")
+        [(-Delta, 1/2), (Delta, 1/2)]
+        """
+        if kind not in ("plain", "symmetrised", "canonical"):
+            raise InputError(f"correlation_lines: kind={kind!r} must be 'plain', 'symmetrised' "
+                             "or 'canonical'")
+        return self._d.correlation_lines(kind)
+
     def matsubara(self) -> sp.Expr:
         r""":math:`\chi(i\nu_n)` in ``sr.nu`` for :math:`\nu_n \ne 0` (at :math:`\nu_n = 0` use the isothermal value).
 
@@ -581,6 +614,116 @@ class Response:
         """
         with self._budgeted():
             return latex_document(self._d, substitutions=substitutions, symbol_names=symbol_names)
+
+    def presented(self, quantities: object = ("isothermal", "isolated", "frequency", "time"), *,
+                  point: Mapping | None = None, budget: Budget = Budget(seconds=60.0)) -> Presentation:
+        r"""The response as a results section prints it: levels sorted by energy, transitions,
+        formulas in their shortest measured form and the where-list of the names they use
+        (radicals, Z, populations, means, pole frequencies and weights); see docs/output.md.
+
+        The formulas equal those of :meth:`static`, :meth:`frequency` and :meth:`time`
+        (``presented().value(q)`` substitutes the where-list back); this is an additional
+        view, the sympy expressions of those methods do not change.
+
+        Parameters
+        ----------
+        quantities : sequence of str
+            Any of "isothermal", "isolated", "frequency", "time", "correlation".
+        point : mapping, optional
+            Parameter values (by name or symbol) that order the levels (default: a generic
+            point, positive parameters of order one and sign-free ones small).
+        budget : Budget
+            Time for choosing forms; past it, cheaper forms are used and a note says so.
+
+        Returns
+        -------
+        symresp.response.Presentation
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> J = sp.Symbol("J", positive=True)
+        >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
+        >>> p = sr.Model(J * (a.vec @ b.vec)).response(a.z + b.z).presented(["isothermal"])
+        >>> print(p.text())
+          levels (2), lowest first: energy E_i, degeneracy g, quantum numbers
+            E1 = -3*J/4  g = 1   Sz=0, S=0
+            E2 = J/4     g = 3   Sz in {1, 0, -1}, S=1
+          transitions: none (A and B only connect states within levels)
+          chi_isothermal = 2*beta/(exp(J*beta) + 3)
+          where
+            Z = 1 + 3*exp(-J*beta)
+        >>> sp.simplify(p.value("isothermal") - 2*sr.beta/(3 + sp.exp(sr.beta*J)))
+        0
+        """
+        if isinstance(quantities, str):
+            quantities = (quantities,)
+        if not isinstance(budget, Budget):
+            raise InputError(f"presented: budget={budget!r} must be a symresp.models.Budget")
+        values = _numeric_params(self._d.system, point)
+        pt = {k: sp.Float(v.real) for k, v in values.items()}
+        return present_response(self._d, tuple(quantities), point=pt, clock=budget.start())
+
+    def plot(self, kind: Literal["levels", "sweep", "spectrum", "map", "static"], *,
+             params: Mapping | None = None, T: float | None = None, eta: float | None = None,
+             parameter: str | None = None, values: object = None,
+             temperatures: object = None, kinds: tuple[str, ...] = ("chi", "chiT", "inverse"),
+             log_T: bool = False, data: object = None, data_kind: str = "chi",
+             path: object = None):
+        r"""A picture of the response as a matplotlib Figure (saved to ``path``, .png or .svg,
+        when given); needs the ``plot`` extra. See docs/pictures.md.
+
+        ``kind``: ``"levels"`` (levels in columns by quantum number, transitions as arrows
+        whose width is the weight :math:`(p_a - p_b)W_{ab}` at ``T``), ``"sweep"`` (levels
+        against ``parameter`` over ``values``, crossings marked), ``"spectrum"`` (lines
+        :math:`\pi w_k` and the broadened :math:`\chi''(\omega)` at ``T``, half width ``eta``),
+        ``"map"`` (:math:`\chi''(\omega, T)` over ``temperatures``), ``"static"`` (chi, chi*T
+        and 1/chi against ``temperatures``, ``kinds`` choosing the panels, measured ``data``
+        as (T, values) of ``data_kind`` overlaid). ``params`` gives every parameter by name.
+
+        Examples
+        --------
+        >>> import sympy as sp, symresp as sr
+        >>> J = sp.Symbol("J", positive=True)
+        >>> a, b = sr.spin("a", sp.Rational(1, 2)), sr.spin("b", sp.Rational(1, 2))
+        >>> r = sr.Model(J * (a.vec @ b.vec) + (a.z - b.z) / 4).response(a.x + b.x)
+        >>> fig = r.plot("levels", params={"J": 1.0}, T=0.5)
+        >>> len(fig.axes[0].patches)        # one arrow per transition with weight
+        2
+        """
+        allowed = ("levels", "sweep", "spectrum", "map", "static")
+        if kind not in allowed:
+            raise InputError(f"plot: kind={kind!r} must be one of {', '.join(allowed)}")
+        d = self._d
+        if kind in ("levels", "spectrum"):
+            if T is None:
+                raise InputError(f"plot: the {kind} picture needs a temperature T=")
+            fig = (draw_levels(level_scheme(d, params, T)) if kind == "levels"
+                   else draw_spectrum(spectrum(d, params, T, eta=eta)))
+        elif kind == "sweep":
+            if parameter is None or values is None:
+                raise InputError("plot: the sweep picture needs parameter= and values=")
+            full = dict(params or {})
+            full.setdefault(parameter, 0.0)
+            fig = draw_sweep(level_sweep(d, full, parameter, values))
+        else:
+            if temperatures is None:
+                raise InputError(f"plot: the {kind} picture needs temperatures=")
+            if kind == "map":
+                fig = draw_map(spectral_map(d, params, temperatures, eta=eta))
+            else:
+                overlay = None
+                if data is not None:
+                    try:
+                        xs, ys = (np.asarray(v, dtype=float) for v in data)
+                    except (TypeError, ValueError):
+                        raise InputError("plot: data must be (temperatures, values)") from None
+                    overlay = (xs, ys)
+                fig = draw_static(static_curves(d, params, temperatures), kinds=kinds,
+                                  log_T=log_T, data=overlay, data_kind=data_kind)
+        if path is not None:
+            save_figure(fig, path)
+        return fig
 
     def summary(self) -> str:
         """A readable derivation summary: levels, transitions, Z, static and dynamic chi.

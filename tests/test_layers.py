@@ -48,7 +48,7 @@ THIRD_PARTY = {
     "__main__": set(), "__init__": set(),
 }
 #: Optional dependencies: the one module that may import each, always under ``try``.
-OPTIONAL = {"matplotlib": {"cli/_plot.py"}, "dask": {"batch/_cluster.py"},
+OPTIONAL = {"matplotlib": {"emit/_plots.py"}, "dask": {"batch/_cluster.py"},
             "distributed": {"batch/_cluster.py"}}
 
 #: The sympy-based packages the numeric reference must not load.

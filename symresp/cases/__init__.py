@@ -1,13 +1,15 @@
 """Case files (layer: cases): TOML descriptions of models, checked and turned into systems.
 
 Imports the standard library, numpy, sympy, mpmath and the lower layers of symresp (errors,
-conventions, algebra, text, models, response, numeric). The format is documented in
+conventions, algebra, text, models, response, numeric, emit). The format is documented in
 ``docs/case-files.md``; expressions use the safe formula language of :mod:`symresp.text`.
 """
 
 from ._curves import Curves, response_curves
 from ._find import (ENV_VARIABLE, CaseSummary, bundled_cases, case_directories, case_summary,
                     find_case)
+from ._columns import read_columns
+from ._json import Presented, case_json, decimal, present_case
 from ._numbers import PRECISE_DIGITS, evaluate_arrays, evaluate_precise
 from ._read import (ASSUMPTIONS, DEFAULT_QUANTITIES, MAX_CASE_BYTES, MAX_CASE_DEPTH, QUANTITIES,
                     SITE_KINDS, Case, Parameter, ResponseRequest, SiteSpec, nesting_fault,
@@ -30,4 +32,5 @@ __all__ = [
     "parse_assignments", "parameter_values", "with_values",
     "DataTable", "read_data", "parse_data", "MEASURED", "COLUMNS",
     "fit_case", "FitResult", "Curve", "magnetometry_model", "MagnetometryModel",
+    "present_case", "case_json", "decimal", "Presented", "read_columns",
 ]

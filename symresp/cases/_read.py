@@ -59,7 +59,7 @@ __all__ = ["Case", "Parameter", "SiteSpec", "ResponseRequest", "read_case", "par
            "MAX_CASE_DEPTH", "nesting_fault"]
 
 #: Quantities a response request may ask for.
-QUANTITIES = ("isothermal", "isolated", "frequency", "time")
+QUANTITIES = ("isothermal", "isolated", "frequency", "time", "correlation")
 #: Quantities asked for when a request does not say.
 DEFAULT_QUANTITIES = ("isothermal", "isolated", "frequency")
 #: Assumptions a parameter may carry, and the sympy assumptions they stand for.

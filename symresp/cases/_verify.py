@@ -14,7 +14,10 @@ from its closed form (30-digit arithmetic, :func:`evaluate_precise`) and compare
 * ``isothermal``, ``isolated``: the static susceptibilities;
 * ``frequency``: :math:`\chi_{AB}(z)` at a complex point :math:`z = \omega + i\eta` above the
   real axis against the pole sum :math:`\sum_k w_k/(\Omega_k - z)`;
-* ``time``: :math:`\chi_{AB}(t)` at a positive time.
+* ``time``: :math:`\chi_{AB}(t)` at a positive time;
+* ``correlation``: the correlation lines broadened by a Lorentzian of half width
+  :math:`\eta`, :math:`S(\omega) = 2\sum_k s_k\eta/((\omega - \Omega_k)^2 + \eta^2)`,
+  against :func:`symresp.numeric.correlation_spectrum`.
 
 A check passes when :math:`|x_{\rm derived} - x_{\rm reference}| \le` ``VERIFY_RTOL``
 :math:`|x_{\rm reference}| +` ``VERIFY_ATOL`` :math:`(1 + s)`, with :math:`s` a natural scale
@@ -249,4 +252,12 @@ def _check_point(label: str, d: Derivation, wanted: tuple[str, ...],
         v[t] = time_value
         add("time", evaluate_precise(d.time(t), v), complex(ref.time(time_value)), weight,
             complex(time_value))
+    if "correlation" in wanted:
+        # S(omega) = 2 sum_k s_k eta/((omega - Omega_k)^2 + eta^2) at omega = Re z, eta = Im z
+        w, eta = z.real, z.imag
+        derived = sum((2 * evaluate_precise(s, values) * eta
+                       / ((w - evaluate_precise(Om, values).real) ** 2 + eta**2)
+                       for Om, s in d.correlation_lines()), 0j)
+        reference = complex(numeric.correlation_spectrum(H, A, B, 1.0 / T, w, eta))
+        add("correlation", derived, reference, weight / eta, z)
     return out

@@ -29,7 +29,13 @@ at infinite temperature. The relations (pinned convention, :math:`\hbar = k_B = 
   matrix and :math:`A^T = \epsilon_A A`, :math:`B^T = \epsilon_B B`
   (complex conjugation in the product basis is then an antiunitary symmetry of :math:`H`);
 * high temperature :math:`\chi_T/\beta \to \mathrm{Tr}(AB)/d - \mathrm{Tr}A\,\mathrm{Tr}B/d^2`;
-* agreement of every closed form with exact diagonalisation (:mod:`symresp.numeric`).
+* agreement of every closed form with exact diagonalisation (:mod:`symresp.numeric`);
+* correlation lines (:meth:`Derivation.correlation_lines`): the fluctuation-dissipation
+  relation :math:`w_k = (1 - e^{-\beta\Omega_k})s_k` line by line and, for A = B, detailed
+  balance :math:`s(-\Omega) = e^{-\beta\Omega}s(\Omega)` (Source: Callen and Welton 1951);
+  Kubo's canonical sum rule :math:`\chi_T = \beta(\sum_k s^K_k - \langle A\rangle\langle B\rangle)`
+  (Source: R. Kubo, J. Phys. Soc. Jpn. 12, 570 (1957)); the lines against the numeric
+  reference.
 """
 
 from __future__ import annotations
@@ -49,7 +55,7 @@ from ..algebra import commutator, dagger, to_array
 from ..conventions import beta, omega, t
 from ..errors import InputError, SymrespError
 from ..models import checkpoint
-from ..numeric import NumericResponse, eigensystem, expectation, solve
+from ..numeric import NumericResponse, correlation_lines, eigensystem, expectation, solve
 from ..response import Derivation, derive
 from ._points import PREC_BITS, compile_expression, draw_beta, draw_parameters, draw_real, to_mp
 
@@ -83,6 +89,8 @@ CHECK_NAMES = (
     "Curie term vs elastic line", "positivity", "isothermal >= isolated", "Onsager reciprocity",
     "high-temperature limit", "reference: isothermal", "reference: isolated",
     "reference: frequency", "reference: time", "reference: partition",
+    "correlation: fluctuation-dissipation", "correlation: detailed balance",
+    "correlation: canonical sum rule", "reference: correlation",
 )
 
 
@@ -208,6 +216,10 @@ class _Closed:
             return d.time(t)
         if key == "partition":
             return d.partition()
+        if key[0] == "corr":
+            _, kind, k, part = key
+            Om, sk = d.correlation_lines(kind)[k]
+            return Om if part == "Omega" else sk
         what, k = key
         tr = d.transitions()[k]
         return tr.frequency if what == "Omega" else tr.weight
@@ -511,6 +523,75 @@ def _reference(d: Derivation, closed: _Closed, pts: list[_Point]) -> list[CheckR
     return rows
 
 
+def _key(f: float, p: _Point) -> int:
+    """Frequencies that agree to 1e-9 of the spectral width share a key."""
+    return round(f / (1e-9 * p.scale_e))
+
+
+def _lines(d: Derivation, closed: _Closed, p: _Point, kind: str) -> dict[int, list]:
+    """Derived correlation lines at a point, merged where frequencies agree numerically:
+    key -> [frequency of the pinned convention, weight]."""
+    out: dict[int, list] = {}
+    sig = d.convention.frequency_sign         # lines sit at sig * Omega: back to Omega
+    for k in range(len(d.correlation_lines(kind))):
+        f = sig * closed(("corr", kind, k, "Omega"), p.subs).real
+        entry = out.setdefault(_key(f, p), [f, 0j])
+        entry[1] += closed(("corr", kind, k, "s"), p.subs)
+    return out
+
+
+def _correlation(d: Derivation, closed: _Closed, pts: list[_Point]) -> list[CheckRow]:
+    r"""Correlation lines: fluctuation-dissipation :math:`w_k = (1 - e^{-\beta\Omega_k})s_k`
+    line by line, detailed balance :math:`s(-\Omega) = e^{-\beta\Omega}s(\Omega)` (A = B),
+    Kubo's canonical sum rule :math:`\chi_T = \beta(\sum_k s^K_k - \langle A\rangle\langle B\rangle)`
+    and agreement with the numeric reference."""
+    rel_fdt = "w_k = (1 - exp(-beta Omega_k)) s_k, line by line"
+    rel_db = "s(-Omega) = exp(-beta Omega) s(Omega) (A = B)"
+    rel_k = "chi_T = beta (sum_k s_k^canonical - <A><B>)"
+    rel_ref = "correlation_lines() = exact diagonalisation"
+    fdt, db, kubo, ref_dev = [], [], [], []
+    sym = d.A == d.B
+    for p in pts:
+        plain = _lines(d, closed, p, "plain")
+        scale = max([abs(v) for _, v in plain.values()] + [p.scale_ab * 1e-3])
+        poles: dict[int, list] = {}
+        for om, w in p.poles:
+            entry = poles.setdefault(_key(om.real, p), [om.real, 0j])
+            entry[1] += w
+        worst = 0.0
+        for key, (f, w) in poles.items():
+            predicted = -math.expm1(-p.beta * f) * plain.get(key, [f, 0j])[1]
+            worst = max(worst, abs(w - predicted) / scale)
+        fdt.append(worst)
+        if sym:
+            worst = 0.0
+            for key, (f, s_) in plain.items():
+                partner = plain.get(_key(-f, p), [-f, 0j])[1]
+                worst = max(worst, abs(partner - math.exp(-p.beta * f) * s_) / scale)
+            db.append(worst)
+        canonical = sum((v for _, v in _lines(d, closed, p, "canonical").values()), 0j)
+        s = d.convention.sign
+        chi = s * p.beta * (canonical - p.ref.expectation_A * p.ref.expectation_B)
+        kubo.append(_rel(closed("isothermal", p.subs), chi, p.beta * p.scale_ab))
+        f_ref, s_ref = correlation_lines(p.H, p.A, p.B, p.beta)
+        ref_lines: dict[int, complex] = {}
+        for f, v in zip(f_ref, s_ref):
+            ref_lines[_key(f, p)] = ref_lines.get(_key(f, p), 0j) + v
+        keys = set(plain) | set(ref_lines)
+        ref_dev.append(max((abs(plain.get(k_, [0, 0j])[1] - ref_lines.get(k_, 0j)) / scale
+                            for k_ in keys), default=0.0))
+    if any(p.poles for p in pts):
+        rows = [_row("correlation: fluctuation-dissipation", rel_fdt, fdt, NUMERIC_TOL)]
+    else:
+        rows = [_na("correlation: fluctuation-dissipation", rel_fdt, "no transitions")]
+    rows.append(_row("correlation: detailed balance", rel_db, db, NUMERIC_TOL) if sym else
+                _na("correlation: detailed balance", rel_db,
+                    "A != B (in general S_AB(-w) = exp(-beta w) S_BA(w))"))
+    rows.append(_row("correlation: canonical sum rule", rel_k, kubo, NUMERIC_TOL))
+    rows.append(_row("reference: correlation", rel_ref, ref_dev, NUMERIC_TOL))
+    return rows
+
+
 # ----------------------------------------------------------------------------- entry point
 @public
 def consistency(derivation: Derivation, *, points: int = 3, seed: int = 0) -> Report:
@@ -596,4 +677,6 @@ def consistency(derivation: Derivation, *, points: int = 3, seed: int = 0) -> Re
         rows.append(_high_temperature(d, closed, pts))
         checkpoint("consistency checks: exact diagonalisation")
         rows += _reference(d, closed, pts)
+        checkpoint("consistency checks: correlation lines")
+        rows += _correlation(d, closed, pts)
     return Report(tuple(rows), points, seed)

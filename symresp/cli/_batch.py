@@ -9,9 +9,9 @@ derive CASE -r LABEL`` and ``... --json`` print, which a test checks byte for by
 from __future__ import annotations
 
 from ..batch import OK, BatchReport
-from ..cases import Case
+from ..cases import Case, case_json, present_case
 from ..response import Derivation
-from ._format import derivation_json, describe_case, describe_derivation
+from ._format import describe_case, describe_presentations
 
 __all__ = ["describe_outputs", "report_lines"]
 
@@ -25,10 +25,9 @@ def describe_outputs(case: Case, label: str, derivation: Derivation) -> tuple[tu
     quantities = () if label == "levels" else case.response(label).quantities
     lines = describe_case(case)
     lines.append(f"  convention:  {derivation.convention.describe()}")
-    texts = {r.label: (r.A_text, r.B_text) for r in case.responses}
-    lines += describe_derivation(label, derivation, quantities,
-                                 texts=texts.get(label, ("", "")))
-    document = derivation_json(case, [(label, derivation, quantities)])
+    presented = present_case(case, [(label, derivation, quantities)])
+    lines += describe_presentations(presented)
+    document = case_json(case, presented)
     return (("txt", "\n".join(lines) + "\n"), ("json", document + "\n"))
 
 

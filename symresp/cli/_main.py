@@ -23,13 +23,13 @@ from importlib import metadata
 from pathlib import Path
 
 from ..batch import MAX_WORKERS, run_batch
-from ..cases import (QUANTITIES, Case, bundled_cases, case_directories, case_summary, derive_case,
-                     find_case, parse_assignments, read_case, response_curves, verify_case,
-                     with_values)
+from ..cases import (QUANTITIES, Case, bundled_cases, case_directories, case_json, case_summary,
+                     derive_case, find_case, parse_assignments, present_case, read_case,
+                     read_columns, verify_case, with_values)
 from ..checks import QUANTITIES as CHECKED_QUANTITIES
 from ..checks import compare, consistency
 from .._files import read_text_file, read_text_stream, write_file, write_files
-from ..emit import numpy_module_source
+from ..emit import latex_report, numpy_module_source
 from ..errors import InputError, SymrespError
 from ..models import DEFAULT_SECONDS, Budget, checkpoint
 from ..response import Derivation
@@ -37,8 +37,8 @@ from ..text import MAX_LENGTH, ParseError
 from ._batch import describe_outputs, report_lines
 from ._fit import add_fit_parser
 from ._resonance import add_resonance_parser
-from ._format import derivation_json, describe_case, describe_derivation, verification_table
-from ._plot import HAVE_MATPLOTLIB, render_plots
+from ._format import describe_case, describe_presentations, verification_table
+from ._plot import HAVE_MATPLOTLIB, PlotOptions, render_plots
 
 __all__ = ["main", "build_parser", "EXIT_OK", "EXIT_FAILURE", "EXIT_BAD_INPUT"]
 
@@ -104,6 +104,32 @@ def _seed(text: str) -> int:
     return v
 
 
+def _interval(text: str) -> tuple[float, float]:
+    """``"TMIN:TMAX"`` with 0 < TMIN < TMAX."""
+    lo, sep, hi = text.partition(":")
+    try:
+        a, b = float(lo), float(hi)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} must be TMIN:TMAX, two numbers") from None
+    if not sep or not (0 < a < b < float("inf")):
+        raise argparse.ArgumentTypeError(f"{text!r} must be TMIN:TMAX with 0 < TMIN < TMAX")
+    return a, b
+
+
+def _sweep(text: str) -> tuple[str, float, float]:
+    """``"NAME=START:STOP"`` with START != STOP."""
+    name, sep, rest = text.partition("=")
+    start, sep2, stop = rest.partition(":")
+    try:
+        a, b = float(start), float(stop)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} must be NAME=START:STOP") from None
+    if not sep or not sep2 or not name.strip() or a == b or not all(
+            abs(x) < float("inf") for x in (a, b)):
+        raise argparse.ArgumentTypeError(f"{text!r} must be NAME=START:STOP with START != STOP")
+    return name.strip(), a, b
+
+
 def _whole_number(low: int, high: int) -> Callable[[str], int]:
     """An argparse type: a whole number from ``low`` to ``high``."""
     def parse(text: str) -> int:
@@ -166,7 +192,10 @@ def build_parser() -> argparse.ArgumentParser:
                         f"those the case asks for")
     fmt = p.add_mutually_exclusive_group()
     fmt.add_argument("--json", action="store_true", help="print one JSON document instead of text")
-    fmt.add_argument("--latex", action="store_true", help="print the formulas as LaTeX")
+    fmt.add_argument("--latex", action="store_true",
+                     help="print a complete LaTeX document (compiles as it is)")
+    fmt.add_argument("--latex-body", action="store_true",
+                     help="print the LaTeX body alone, for \\input into a paper")
     p.set_defaults(run=_cmd_derive)
 
     p = sub.add_parser("verify", parents=[with_case],
@@ -221,19 +250,36 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(run=_cmd_consistency)
 
     p = sub.add_parser("plot", parents=[with_case],
-                       help="plot chi''(omega), chi(T) and chi*T to PNG files",
-                       description="Plot the broadened spectrum chi''(omega) and the static "
-                                   "susceptibilities chi(T) and chi*T against T, at the default "
-                                   "parameter values of the case (needs matplotlib).")
-    p.add_argument("--out", required=True, metavar="DIR", help="directory for the PNG files "
-                                                                "(created if missing)")
+                       help="draw the pictures of each response (PNG or SVG)",
+                       description="Draw, for each response at the default parameter values of "
+                                   "the case: the energy-level diagram with the transitions as "
+                                   "arrows (width: weight at the temperature), the stick "
+                                   "spectrum with the broadened chi''(omega), the "
+                                   "chi''(omega, T) map, chi(T), chi*T and 1/chi against T, and "
+                                   "with --sweep the levels against one parameter (needs "
+                                   "matplotlib). See docs/pictures.md.")
+    p.add_argument("--out", required=True, metavar="DIR",
+                   help="directory for the pictures (created if missing)")
     p.add_argument("--force", action="store_true",
-                   help="overwrite PNG files that exist already (never the case file)")
+                   help="overwrite pictures that exist already (never the case file)")
+    p.add_argument("--format", choices=("png", "svg"), default="png",
+                   help="file format (default: png)")
     p.add_argument("--temperature", type=_positive_float, metavar="T",
-                   help="temperature of the spectrum (default: the case's energy scale)")
+                   help="temperature of the level diagram and the spectrum (default: the case's "
+                        "energy scale)")
     p.add_argument("--eta", type=_positive_float, metavar="ETA",
                    help="Lorentzian half width of the spectrum (default: 2%% of the highest "
                         "transition frequency)")
+    p.add_argument("--T-range", dest="T_range", metavar="TMIN:TMAX", type=_interval,
+                   help="temperature range of chi(T), chi*T, 1/chi and the map")
+    p.add_argument("--log-T", dest="log_T", action="store_true",
+                   help="logarithmic temperature axis")
+    p.add_argument("--data", metavar="FILE",
+                   help="measured points to overlay: two columns, T and the value")
+    p.add_argument("--data-kind", dest="data_kind", choices=("chi", "chiT", "inverse"),
+                   default="chi", help="what the second column of --data is (default: chi)")
+    p.add_argument("--sweep", metavar="NAME=START:STOP", type=_sweep,
+                   help="also draw the levels against parameter NAME from START to STOP")
     p.set_defaults(run=_cmd_plot)
 
     p = sub.add_parser("emit", parents=[with_case],
@@ -368,17 +414,20 @@ def _cmd_derive(args: argparse.Namespace, progress: _Progress) -> int:
     derived = _derive(case, args, progress)
     items = [(label, d, _quantities_of(case, label, args.quantity)) for label, d in derived]
     progress("simplifying and printing")
+    presented = present_case(case, items)       # within the command's running budget
     if args.json:
-        print(derivation_json(case, items))
+        print(case_json(case, presented))
         return EXIT_OK
-    lines = describe_case(case)
+    header = describe_case(case)
     if derived:
-        lines.append(f"  convention:  {derived[0][1].convention.describe()}")
-    texts = {r.label: (r.A_text, r.B_text) for r in case.responses}
-    for label, d, qs in items:
-        lines += describe_derivation(label, d, qs, texts=texts.get(label, ("", "")),
-                                     latex=args.latex)
-    print("\n".join(lines))
+        header.append(f"  convention:  {derived[0][1].convention.describe()}")
+    if args.latex or args.latex_body:
+        title, *rest = header
+        responses = [(label, a, b, p) for label, a, b, _d, p in presented]
+        print(latex_report(title, [line.strip() for line in rest], responses,
+                           body_only=args.latex_body), end="")
+        return EXIT_OK
+    print("\n".join(header + describe_presentations(presented)))
     return EXIT_OK
 
 
@@ -479,6 +528,7 @@ def _cmd_plot(args: argparse.Namespace, progress: _Progress) -> int:
               "pip install symresp[plot]", file=sys.stderr)
         return EXIT_BAD_INPUT
     case = _load(args, progress)
+    data = read_columns(args.data) if args.data is not None else None
     derived = _derive(case, args, progress)
     if derived and derived[0][0] == "levels":
         raise InputError(f"{case.source}: the case asks for no [[response]]; there is nothing to "
@@ -486,18 +536,21 @@ def _cmd_plot(args: argparse.Namespace, progress: _Progress) -> int:
     out = Path(args.out)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {out}: exists and is not a directory")
+    options = PlotOptions(temperature=args.temperature, eta=args.eta, fmt=args.format,
+                          T_range=args.T_range, log_T=args.log_T, data=data,
+                          data_kind=args.data_kind, sweep=args.sweep)
     pictures = []
     for label, d in derived:
-        progress(f"computing curves of '{label}'")
-        curves = response_curves(case, label, d, temperature=args.temperature, eta=args.eta)
-        pictures += render_plots(case.name, curves)
+        progress(f"drawing '{label}'")
+        pictures += render_plots(case, label, d, options)
     progress("writing the plots")
     try:
         out.mkdir(parents=True, exist_ok=True)
     except OSError as err:
         raise InputError(f"--out {out}: cannot create the directory ({err.strerror or err})") from None
+    inputs = [case.source] + ([args.data] if args.data is not None else [])
     for path in write_files([(out / name, data) for name, data in pictures], force=args.force,
-                            inputs=[case.source]):
+                            inputs=inputs):
         print(path)
     return EXIT_OK
 

@@ -24,6 +24,8 @@ import sympy as sp
 from ..algebra import describe
 from ..errors import InputError
 from ..response import Derivation
+from ._correlation import (CORRELATION_RUNTIME, correlation_glue, correlation_program,
+                           correlation_wrapper)
 from ._eigen import eigen_plan
 from ._inplace import inplace_body
 from ._plan import Plan, build_plan, fingerprint
@@ -391,9 +393,10 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     first, then the model parameters in their declared order, all broadcasting together):
     ``chi_isothermal(T, *p)``, ``chi_isolated(T, *p)``, ``chi_static(T, *p, kind=)``,
     ``jacobian_static(T, *p, kind=)``, ``chi_omega(omega, T, *p, eta=)``,
-    ``chi_spectral(omega, T, *p, eta=, shape=)``, ``chi_time(t, T, *p)`` and
-    ``energies(*p)``, with the constants ``PARAMETERS``, ``DEGENERACIES``, ``ENERGIES``,
-    ``CONVENTION``, ``FINGERPRINT`` and ``SYMRESP_VERSION``.
+    ``chi_spectral(omega, T, *p, eta=, shape=)``, ``chi_time(t, T, *p)``,
+    ``energies(*p)`` and ``correlation_spectral(omega, T, *p, eta=, shape=, kind=)`` (the
+    broadened correlation function :math:`S_{AB}(\omega)`), with the constants ``PARAMETERS``,
+    ``DEGENERACIES``, ``ENERGIES``, ``CONVENTION``, ``FINGERPRINT`` and ``SYMRESP_VERSION``.
 
     Per level a the code evaluates :math:`E_a`; per pair of levels the exact spacing
     :math:`E_b - E_a` and the weights :math:`W_{ab}`; the Boltzmann factors are taken relative
@@ -476,7 +479,7 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     src: list[str] = [literal, ""]
     src += ["import cmath", "import math", "", "import numpy", ""]
     public_names = ["chi_isothermal", "chi_isolated", "chi_static", "jacobian_static",
-                    "chi_omega", "chi_spectral", "chi_time", "energies"]
+                    "chi_omega", "chi_spectral", "chi_time", "energies", "correlation_spectral"]
     src.append("__all__ = [" + ", ".join(repr(n) for n in public_names) + "]")
     src += [
         "",
@@ -491,6 +494,7 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
         ")",
     ]
     src += RUNTIME.splitlines()
+    src += CORRELATION_RUNTIME.splitlines()
     if plan.roots:
         src += ROOTS_RUNTIME.splitlines()
         lam = {sym for rs in plan.roots for sym, _ in rs.picks}
@@ -502,6 +506,7 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     for kind in ("isothermal", "isolated", "jacobian", "dynamic"):
         src += _both(P[kind]) + ["", ""]
     src += _both(energies_program(plan)) + ["", ""]
+    src += _both(correlation_program(plan)) + ["", ""]
     src += ["# " + "-" * 90, "# Stage B: temperature (Boltzmann factors, pair factors).",
             "# " + "-" * 90, "", ""]
     for kind in ("isothermal", "isolated"):
@@ -518,8 +523,10 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     src += _array_only(time_program(plan, wave_complex)) + ["", ""]
     src += ["# " + "-" * 90, "# Public functions.", "# " + "-" * 90, "", ""]
     src += _glue(plan, has_time, prefix)
+    src += correlation_glue(plan, prefix)
     if prefix:
         src += _wrappers(signature, prefix, has_time)
+        src += correlation_wrapper(signature, prefix)
     while src and src[-1] == "":
         src.pop()
     return "\n".join(src) + "\n"

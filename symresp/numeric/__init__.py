@@ -20,7 +20,8 @@ Conventions (the pinned ones of symresp, :math:`\hbar = k_B = 1`, :math:`\beta =
 
 Modules: ``_arguments`` (argument checks), ``_levels`` (eigensystem, degenerate levels,
 populations), ``_lehmann`` (weights, poles, static values, sums on grids), ``_response``
-(:func:`solve` and :class:`NumericResponse`), ``_functions`` (the free functions).
+(:func:`solve` and :class:`NumericResponse`), ``_functions`` (the free functions),
+``_correlation`` (correlation lines and broadened correlation functions).
 """
 
 from ._functions import (
@@ -35,11 +36,15 @@ from ._functions import (
     static_isolated,
     static_isothermal,
 )
+from ._correlation import CORRELATION_KINDS, correlation_lines, correlation_spectrum
 from ._levels import Eigensystem, eigensystem
 from ._response import NumericResponse, solve
 from ._roots import real_roots
 
 __all__ = [
+    "CORRELATION_KINDS",
+    "correlation_lines",
+    "correlation_spectrum",
     "Eigensystem",
     "NumericResponse",
     "chi_matsubara",

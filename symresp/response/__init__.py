@@ -1,5 +1,5 @@
 """Response (layer: response): Lehmann sums, chi(omega), chi(t), static isothermal and isolated
-susceptibilities, pole tables, presentable forms.
+susceptibilities, pole tables, correlation lines, presentable forms and presentations.
 
 Imports sympy, :mod:`symresp.conventions`, :mod:`symresp.errors`, :mod:`symresp.algebra`,
 :mod:`symresp.models`, :mod:`symresp.spectrum`.
@@ -7,6 +7,14 @@ Imports sympy, :mod:`symresp.conventions`, :mod:`symresp.errors`, :mod:`symresp.
 
 from ._derive import Derivation, Level, StaticKind, Transition, derive, present
 from ._motion import Gibbs, MotionDerivation, PolePair, derive_motion
+from ._presentation import (DEFINITION_KINDS, PRESENTED_QUANTITIES, Definition, Formula, LevelRow,
+                            Line, Presentation, TransitionRow, present_response)
+from ._render import (GENERIC_FORMS, MAX_LINE, formula_lines, formula_text, level_lines,
+                      presentation_text, split_shared, transition_lines, where_lines, wrap)
 
 __all__ = ["Derivation", "Level", "Transition", "StaticKind", "derive", "present", "MotionDerivation",
-           "PolePair", "Gibbs", "derive_motion"]
+           "PolePair", "Gibbs", "derive_motion",
+           "Presentation", "Definition", "Formula", "LevelRow", "Line", "TransitionRow",
+           "present_response", "PRESENTED_QUANTITIES", "DEFINITION_KINDS",
+           "formula_text", "wrap", "MAX_LINE", "level_lines", "transition_lines",
+           "formula_lines", "where_lines", "presentation_text", "GENERIC_FORMS", "split_shared"]

@@ -24,6 +24,7 @@ physicists write them and stay finite when evaluated.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Literal
 
 import sympy as sp
@@ -33,6 +34,7 @@ from ..conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from ..errors import BudgetExceeded, InputError
 from ..models import Budget, Clock, System, current_clock
 from ..spectrum import LevelRoot, Spectrum, clean, is_zero_number, solve
+from ._correlation import CorrelationKind, correlation_lines
 from ._present import boltzmann_form, hyperbolic_ratio, merge_exponentials
 
 __all__ = ["Level", "Transition", "Derivation", "derive", "StaticKind", "present"]
@@ -128,7 +130,10 @@ def _larger_than(expr: sp.Expr, nodes: int) -> bool:
     return False
 
 
+@lru_cache(maxsize=2048)
 def _present_now(expr: sp.Expr, max_ops: int) -> sp.Expr:
+    # Pure, so cached: the same pole weight is presented for chi(omega), chi(t) and the
+    # presentation of a response.
     # count_ops is slow on very large sums (it builds a symbol per operation): a bounded node
     # count screens them out first.
     if _larger_than(expr, 20 * max_ops):
@@ -154,6 +159,20 @@ def _present_now(expr: sp.Expr, max_ops: int) -> sp.Expr:
     d = sp.factor(sp.powsimp(sp.expand(d), combine="exp"))
     hyper = _hyperbolic_form(n, d) if len(d.atoms(sp.exp)) == 1 else None
     return hyper if hyper is not None else sp.powsimp(n / d, combine="exp")
+
+
+def present_shortest(expr: sp.Expr, *, max_ops: int = 400) -> sp.Expr:
+    """The shorter (printed length) of :func:`present` and the Boltzmann form relative to the
+    lowest level, e.g. ``1/(1 + exp(-beta*Delta))`` rather than ``exp(beta*Delta)/(exp(beta*Delta) + 1)``."""
+    first = present(expr, max_ops=max_ops)
+    if (not expr.has(sp.exp) or expr.has(sp.CRootOf, LevelRoot)
+            or sp.count_ops(expr) > max_ops):
+        return first
+    other = boltzmann_form(expr)
+    if other is None:
+        return first
+    other = merge_exponentials(other)
+    return min((first, other), key=lambda e: (len(sp.sstr(e)), sp.count_ops(e)))
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -369,6 +388,16 @@ class Derivation:
         r"""Lines of :math:`\chi''(\omega) = \pi\sum_k w_k\,\delta(\omega - \Omega_k)`:
         pairs (position, strength :math:`\pi w_k`)."""
         return [(Om, sp.pi * w) for Om, w in self.poles()]
+
+    def correlation_lines(self, kind: CorrelationKind = "plain") -> list[tuple[sp.Expr, sp.Expr]]:
+        r"""Lines :math:`[(\Omega_k, s_k)]` of :math:`S_{AB}(\omega) = 2\pi\sum_k s_k
+        \delta(\omega - \Omega_k)` (``kind`` "plain", "symmetrised" or "canonical"; see
+        :mod:`._correlation`), ordered like :meth:`poles`, the elastic line at 0 included."""
+        key = ("correlation", kind)
+        if key not in self._memo:
+            self._memo[key] = correlation_lines(
+                self, kind, tidy=present_shortest, order_point=_sample_point(self.system.parameters))
+        return self._memo[key]
 
     def zero_temperature(self, kind: StaticKind = "isothermal") -> sp.Expr:
         r"""Static susceptibility at T = 0, with the reference level taken as the ground level.

@@ -45,6 +45,12 @@ def test_bundled_case_derives_and_verifies(name, capsys):
     assert main(["derive", name, "--quiet"]) == 0, capsys.readouterr().err
     out = capsys.readouterr().out
     assert "levels (" in out and "Z = " in out and "chi_isothermal = " in out
+    # Printed like a results section: after the case header (which repeats the case file) no
+    # line is longer than 400 characters, and the whole stays short (the six-site wheel
+    # printed 326 KB when formulas were written out in full).
+    body = out.split("\n== ", 1)[1]
+    assert max(len(line) for line in body.splitlines()) <= 400
+    assert len(out.encode()) < 20_000
     code = main(["verify", name, "--quiet", "--points", "2", "--seed", "7"])
     out = capsys.readouterr().out
     assert code == 0, out
@@ -71,21 +77,31 @@ def test_progress_stages_go_to_stderr(capsys):
 def test_quantity_latex_and_response_options(capsys):
     assert main(["derive", "dimer", "-q", "--response", "Mx", "--quantity", "time", "--latex"]) == 0
     out = capsys.readouterr().out
-    assert "\\chi_{AB}(t) = " in out and "response 'M'" not in out and "chi_isothermal" not in out
+    assert "\\chi_{AB}(t) &= " in out and "Response M:" not in out and "chi^{T}" not in out
+    assert out.startswith("\\documentclass") and out.rstrip().endswith("\\end{document}")
 
 
 def test_json_formulas_read_back_with_the_formula_parser(capsys):
-    assert main(["derive", "dimer", "-q", "--json"]) == 0
+    # Every formula is text in sympy syntax over the parameters, beta and the where-list names;
+    # reading the where-list in order and then the formula gives the derived quantity.
+    assert main(["derive", "zfs_ion", "-q", "--json"]) == 0
     doc = json.loads(capsys.readouterr().out)
-    case = read_case(find_case("dimer"))
+    case = read_case(find_case("zfs_ion"))
     derived = dict(derive_case(case))
-    symbols = dict(case.symbols, beta=beta)
     for entry in doc["responses"]:
-        text = entry["quantities"]["isothermal"]["text"]
-        parsed = parse_scalar(text, symbols)
-        assert sp.simplify(parsed - derived[entry["label"]].static("isothermal")) == 0
-    assert doc["parameters"][0] == {"name": "J", "assume": "positive", "value": "12.5",
-                                    "unit": "K", "description": "intradimer exchange"}
+        symbols = dict(case.symbols, beta=beta)
+        for item in entry["where"]:
+            if item["kind"] != "root":
+                symbols[item["name"]] = parse_scalar(item["text"], symbols)
+        for q, name in entry["formula_symbols"].items():
+            symbols[name] = parse_scalar(entry["quantities"][q]["text"], symbols)
+        parsed = parse_scalar(entry["quantities"]["isothermal"]["text"], symbols)
+        expected = derived[entry["label"]].static("isothermal")
+        point = {s: v for s, v in case.defaults.items()}
+        point[beta] = sp.Rational(1, 3)
+        assert abs(sp.N((parsed - expected).subs(point), 30)) < 1e-20
+        assert [lv["label"] for lv in entry["levels"]] == [1, 2, 3]
+    assert doc["parameters"][0]["name"] == "D" and doc["parameters"][0]["value"] == "4.2"
 
 
 def test_case_path_and_search_variable(tmp_path, capsys):
@@ -318,6 +334,6 @@ def test_implicit_levels_get_short_names_and_a_legend(tmp_path, capsys):
                     '[sites]\nq = "levels 3"\n[[response]]\nA = "q(0,2) + q(2,0)"\n')
     assert main(["derive", str(path), "-q"]) == 0
     out = capsys.readouterr().out
-    assert "E = J*r1_0" in out and "CRootOf(" not in out
-    assert "r1_2 = root 2 (ascending) of x**3 - 4*x**2 + x + 4 = 3.342923082" in out
+    assert "E1 = J*r1_0" in out and "CRootOf(" not in out
+    assert "r1_2: root 2 (ascending, from 0) of x**3 - 4*x**2 + x + 4 in x = 3.342923082" in out
     assert main(["verify", str(path), "-q", "--points", "1"]) == 0

@@ -110,3 +110,160 @@ def test_one_generator_in_a_parameter_combination_reads_as_tanh():
     assert chi.has(sp.tanh) and not chi.has(sp.exp)
     assert _equal(chi.subs({J1: sp.Rational(3, 2), J2: sp.Rational(1, 3)}),
                   (sp.tanh(beta * sp.Rational(7, 6)) / (4 * sp.Rational(7, 6))))
+
+
+# ------------------------------------------------------------------ presented structure
+# Every presented formula, with its where-list substituted back, equals exact diagonalisation
+# of the independently built matrices (tests/strategies.py) at random points: the presentation
+# may change how a formula reads, never what it is.
+from hypothesis import assume, given, note, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+from symresp import numeric  # noqa: E402
+from symresp.errors import BudgetExceeded, ClosedFormError  # noqa: E402
+from symresp.response import MAX_LINE, present_response  # noqa: E402
+
+from ..conftest import ATOL_EXACT, RTOL_EXACT, assert_close  # noqa: E402
+from ..strategies import parameter_points, random_models  # noqa: E402
+from .test_against_numeric import _num, _regular_point  # noqa: E402
+
+ALL = ("isothermal", "isolated", "frequency", "time", "correlation")
+
+def _subs(expr, values, T):
+    """``expr`` at the parameter values (by name) and temperature T, by exact replacement
+    (``subs`` on large expressions costs far more than ``xreplace``)."""
+    expr = sp.sympify(expr)
+    rep = {s: sp.nsimplify(values[s.name]) for s in expr.free_symbols if s.name in values}
+    rep[sr.beta] = 1 / sp.nsimplify(T)
+    return expr.xreplace(rep)
+
+
+
+def _clustered(lines, tol):
+    """Sums of line weights over frequencies closer than ``tol``."""
+    out: list[list] = []
+    for f, w in sorted(lines, key=lambda x: x[0]):
+        if out and abs(f - out[-1][0]) <= tol:
+            out[-1][1] += w
+        else:
+            out.append([f, w])
+    return [(f, w) for f, w in out if abs(w) > 1e-13]
+
+
+# Half the examples of the backbone test (which derives the same kind of models): each example
+# here also presents every quantity and evaluates the expanded forms.
+@settings(max_examples=max(5, settings().max_examples // 2))
+@given(model=random_models(), data=st.data())
+def test_presented_formulas_equal_exact_diagonalisation(model, data):
+    try:
+        r = sr.Model(model.H).response(model.A, model.B)
+    except (ClosedFormError, BudgetExceeded) as err:
+        note(f"outside closed form by design: {err}")
+        assume(False)
+        return
+    p = present_response(r.derivation, ALL)
+    exact = data.draw(parameter_points(model.params))
+    T = data.draw(st.sampled_from([0.3, 1.0, 4.0]))
+    ref = numeric.solve(model.H_num(exact), model.A_mat, model.B_mat, 1.0 / T)
+    values = _regular_point(r, exact, T)
+    digits = 30 if values is exact else 60
+    scale = max(1.0, abs(ref.isothermal), abs(ref.isolated))
+    got = _num(_subs(p.value("isothermal"), values, T), digits)
+    assert_close(got / scale, ref.isothermal / scale, what="presented isothermal")
+    if values is exact:
+        got = _num(_subs(p.value("isolated"), values, T), digits)
+        assert_close(got / scale, ref.isolated / scale, what="presented isolated")
+    z = 0.37 + 0.21j
+    w = sp.nsimplify(z.real) + sp.I * sp.nsimplify(z.imag)
+    got = _num(_subs(p.value("frequency"), values, T).xreplace({sr.omega: w}), digits)
+    assert_close(got, ref.frequency(z.real, z.imag), rtol=RTOL_EXACT, atol=ATOL_EXACT * 10,
+                 what="presented chi(omega)")
+    got = _num(_subs(p.value("time"), values, T).xreplace({sr.t: sp.Rational(7, 10)}), digits)
+    assert_close(got, ref.time(0.7), rtol=RTOL_EXACT, atol=ATOL_EXACT * 10, what="presented chi(t)")
+    # Correlation lines of the presentation against the numeric reference.
+    subs = p.substitutions()
+    lines = [(_num(_subs(ln.frequency.xreplace(subs), values, T), digits).real,
+              _num(_subs(ln.weight.xreplace(subs), values, T), digits)) for ln in p.correlation]
+    f_ref, s_ref = numeric.correlation_lines(model.H_num(exact), model.A_mat, model.B_mat, 1.0 / T)
+    tol = 1e-7 * max([1.0, *(abs(f) for f in f_ref)])
+    mine, theirs = _clustered(lines, tol), _clustered(list(zip(f_ref, s_ref)), tol)
+    assert len(mine) == len(theirs), (mine, theirs)
+    for (f1, w1), (f2, w2) in zip(mine, theirs):
+        assert abs(f1 - f2) <= tol
+        assert_close(w1, w2, rtol=1e-9, atol=1e-11, what=f"correlation line at {f2}")
+
+
+def test_levels_are_sorted_by_energy_at_the_ordering_point():
+    # Spin 1 with D S_z^2 - h S_z: for D = 2, h = 1 the order is m = 0 (0), m = 1 (1), m = -1 (3).
+    s = sr.spin("s", 1)
+    r = sr.Model(D * s.z**2 - h * s.z).response(s.x)
+    p = r.presented(point={"D": 2, "h": 1})
+    assert [row.energy for row in p.levels] == [0, D - h, D + h]
+    assert [row.label for row in p.levels] == [1, 2, 3]
+    p = r.presented(point={"D": -2, "h": 1})
+    assert [row.energy for row in p.levels] == [D - h, D + h, 0]
+
+
+def test_radicals_are_named_once_and_used_everywhere():
+    # Spin 1 with axial D, rhombic E and a field: levels D/3 +- sqrt(E^2 + h^2), -2D/3.
+    E = sp.Symbol("E_r", nonnegative=True)
+    s = sr.spin("s", 1)
+    r = sr.Model(D * (s.z**2 - sp.Rational(2, 3)) + E * (s.x**2 - s.y**2) - h * s.z).response(s.x)
+    p = r.presented()
+    text = p.text()
+    assert "sqrt" in text and text.count("sqrt") == 1          # defined once: R = sqrt(...)
+    radical = [d for d in p.definitions if d.kind == "radical"]
+    assert len(radical) == 1 and radical[0].value == sp.sqrt(E**2 + h**2)
+    assert all(not row.energy.has(sp.sqrt(E**2 + h**2)) for row in p.levels)
+
+
+def test_hermitian_pole_pairs_are_merged():
+    # Spin 1/2 in a field, A = B = S_x: one pair at +-h, printed as 2 h w/(h^2 - omega^2).
+    q = sr.spin("q", HALF)
+    p = sr.Model(J * q.z).response(q.x).presented(["frequency"])
+    f = p.formula("frequency").expr
+    assert sp.simplify(f - J * sp.tanh(beta * J / 2) / (2 * (J**2 - sr.omega**2))) == 0
+    assert len(sp.Add.make_args(sp.together(f).as_numer_denom()[1])) <= 2
+
+
+def test_population_form_takes_over_where_closed_forms_are_long():
+    # Six-site wheel: the closed forms run to 1e5 characters; the presentation stays short.
+    from symresp.cases import derive_case, find_case, present_case, read_case
+    case = read_case(find_case("ring4"))
+    items = [(label, d, ("isothermal", "isolated", "frequency", "time"))
+             for label, d in derive_case(case)]
+    for label, _a, _b, d, p in present_case(case, items):
+        text = p.text()
+        assert max(len(line) for line in text.splitlines()) <= MAX_LINE
+        assert len(text) < 4000
+        for q in ("isothermal", "frequency"):
+            pt = {**case.defaults, beta: sp.Rational(1, 5), sr.omega: sp.Rational(1, 3)}
+            raw = d.static("isothermal") if q == "isothermal" else d.frequency()
+            assert abs(sp.N((p.value(q) - raw).subs(pt), 30)) < 1e-20
+
+
+def test_an_exhausted_share_of_the_budget_gives_population_sums_and_a_note(monkeypatch):
+    # The presentation may use a share of the time left; past it, it falls back to the plain
+    # population sums with a note instead of failing (the whole budget is not used up here).
+    from symresp.models import Budget
+    from symresp.response import _presentation
+    monkeypatch.setattr(_presentation, "PRESENT_SHARE", 1e-12)
+    q = sr.spin("q", HALF)
+    r = sr.Model(J * q.z + h * q.x).response(q.z)
+    clock = Budget(seconds=60).start()
+    with clock.running():
+        p = present_response(r.derivation, ("isothermal", "frequency"))
+    assert any("budget" in n for n in p.notes) and any("budget" in n for n in clock.notes)
+    assert all(f.form != "closed" for f in p.formulas)
+    pt = {J: sp.Rational(1, 2), h: sp.Rational(1, 3), beta: 2, sr.omega: sp.Rational(1, 7)}
+    assert abs(sp.N((p.value("isothermal") - r.static("isothermal")).subs(pt), 30)) < 1e-25
+    assert abs(sp.N((p.value("frequency") - r.frequency()).subs(pt), 30)) < 1e-25
+
+
+def test_an_exhausted_whole_budget_is_an_error():
+    from symresp.errors import BudgetExceeded
+    from symresp.models import Budget
+    q = sr.spin("q", HALF)
+    r = sr.Model(J * q.z + h * q.x).response(q.z)
+    with pytest.raises(BudgetExceeded, match="presenting"):
+        present_response(r.derivation, ("isothermal",), clock=Budget(seconds=1e-9).start())
