@@ -379,7 +379,8 @@ class _Builder:
         sources += [*self.d.level_weights.values(), *self.d.expect_A.values(),
                     *self.d.expect_B.values()]
         for e in sources:
-            for p in sorted(sp.sympify(e).atoms(sp.Pow), key=sp.default_sort_key):  # safe
+            for p in sorted(sp.Integer(e).atoms(sp.Pow) if isinstance(e, int) else e.atoms(sp.Pow),
+                           key=sp.default_sort_key):
                 if (p.exp.is_Rational and p.exp.q == 2 and p.base.free_symbols
                         and not p.base.has(sp.CRootOf, LevelRoot) and p.base not in bases):
                     bases.append(p.base)
