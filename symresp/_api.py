@@ -26,11 +26,11 @@ from .emit import latex_document, numpy_functions, numpy_module_source
 from .conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from .errors import InputError
 from .models import Budget, System
-from .response import Derivation, Level, Transition, derive
+from .response import (CHECKED_QUANTITIES, Derivation, Level, Quantity, StaticKind, Transition,
+                       check_quantity, derive, quantity_expression)
 
 __all__ = ["Model", "Response", "load_case"]
 
-Quantity = Literal["isothermal", "isolated", "frequency", "time", "partition"]
 
 
 @public
@@ -347,7 +347,7 @@ class Response:
         """False when some level is an implicit root (semi-closed form)."""
         return self._d.spectrum.is_closed_form
 
-    def static(self, kind: Literal["isothermal", "isolated"] = "isothermal") -> sp.Expr:
+    def static(self, kind: StaticKind = "isothermal") -> sp.Expr:
         r"""Static susceptibility in ``sr.beta`` and the parameters.
 
         ``"isothermal"``: :math:`\partial\langle A\rangle/\partial f` at fixed temperature;
@@ -431,7 +431,7 @@ class Response:
         with self._budgeted():
             return self._d.matsubara(nu)
 
-    def zero_temperature(self, kind: Literal["isothermal", "isolated"] = "isothermal") -> sp.Expr:
+    def zero_temperature(self, kind: StaticKind = "isothermal") -> sp.Expr:
         r"""Static susceptibility at T = 0 (ground level = the lowest level at the sample point).
 
         Examples
@@ -653,11 +653,8 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
     system = r.derivation.system
     p = _numeric_params(system, params)
     missing = set(system.parameters) - set(p)
-    exprs = {"isothermal": lambda: r.static("isothermal"), "isolated": lambda: r.static("isolated"),
-             "frequency": r.frequency, "time": r.time, "partition": r.partition_function}
-    if quantity not in exprs:
-        raise InputError(f"evaluate: quantity={quantity!r} must be one of {', '.join(exprs)}")
-    expr = exprs[quantity]()
+    check_quantity(quantity, CHECKED_QUANTITIES, "evaluate: quantity")
+    expr = quantity_expression(r.derivation, quantity)
     missing &= expr.free_symbols
     if missing:
         raise InputError(f"evaluate: give values for {', '.join(sorted(map(str, missing)))} in params=")

@@ -50,6 +50,8 @@ from .._files import read_text_file
 from ..emit import temperature_unit_name
 from ..errors import InputError, NotConservedError, NotHermitianError
 from ..models import System
+from ..response import CASE_QUANTITIES as QUANTITIES
+from ..response import DEFAULT_CASE_QUANTITIES as DEFAULT_QUANTITIES
 from ..text import RESERVED_WORDS, ParseError, parse_operator
 from ._locate import KeyPlace, Locator
 from ._magnet import Magnetism, read_magnetism
@@ -58,10 +60,6 @@ __all__ = ["Case", "Parameter", "SiteSpec", "ResponseRequest", "read_case", "par
            "QUANTITIES", "DEFAULT_QUANTITIES", "ASSUMPTIONS", "CASE_SITE_WORDS", "MAX_CASE_BYTES",
            "MAX_CASE_DEPTH", "nesting_fault"]
 
-#: Quantities a response request may ask for.
-QUANTITIES = ("isothermal", "isolated", "frequency", "time")
-#: Quantities asked for when a request does not say.
-DEFAULT_QUANTITIES = ("isothermal", "isolated", "frequency")
 #: Assumptions a parameter may carry, and the sympy assumptions they stand for.
 ASSUMPTIONS: Mapping[str, Mapping[str, bool]] = {
     "real": {"real": True},

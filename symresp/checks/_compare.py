@@ -37,15 +37,15 @@ from .._public import public
 from ..conventions import T, beta, eta, omega, t
 from ..errors import InputError
 from ..models import checkpoint
-from ..response import Derivation
+from ..response import CHECKED_QUANTITIES, Derivation, Quantity, check_quantity
 from ..text import ParseError, parse_scalar
 from ._points import (PREC_BITS, WORKING_DIGITS, LevelData, draw_beta, draw_parameters, draw_real,
                       lehmann_value, level_data, to_mp)
 
 __all__ = ["Verdict", "compare", "Quantity", "QUANTITIES"]
 
-Quantity = Literal["isothermal", "isolated", "frequency", "time", "partition"]
-QUANTITIES = ("isothermal", "isolated", "frequency", "time", "partition")
+#: The quantities whose hand formula can be compared (the registry's ``checked`` ones).
+QUANTITIES = CHECKED_QUANTITIES
 
 #: Two numbers agree when |a - b| <= AGREE_RTOL max(|a|, |b|) + AGREE_ATOL * scale, scale being
 #: the largest magnitude met on either side. Evaluation carries 30 digits, so 1e-15 leaves a wide
@@ -1156,8 +1156,7 @@ def compare(derivation: Derivation, formula: object, quantity: Quantity = "isoth
     if not isinstance(derivation, Derivation):
         raise InputError(f"compare: derivation={derivation!r} must be a symresp Derivation "
                          f"(use response.derivation)")
-    if quantity not in QUANTITIES:
-        raise InputError(f"compare: quantity={quantity!r} must be one of {', '.join(map(repr, QUANTITIES))}")
+    check_quantity(quantity, QUANTITIES, "compare: quantity")
     if isinstance(samples, bool) or not isinstance(samples, int) or samples < 3:
         raise InputError(f"compare: samples={samples!r} must be an integer >= 3")
     if isinstance(seed, bool) or not isinstance(seed, int):

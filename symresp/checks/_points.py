@@ -32,7 +32,7 @@ import sympy as sp
 
 from ..errors import InputError
 from ..numeric import real_roots
-from ..response import Derivation
+from ..response import STATIC_KINDS, Derivation
 from ..spectrum import real_root
 
 __all__ = [
@@ -156,7 +156,7 @@ def lehmann_value(data: LevelData, quantity: str, beta: mp.mpf, *, z: mp.mpc | N
             return mp.mpc(mp.exp(-beta * min(E)) * zr)
         p = [xa / zr for xa in x]
         s = data.sign
-        if quantity in ("isothermal", "isolated"):
+        if quantity in STATIC_KINDS:
             iso = mp.fsum((p[a] - p[b]) * W / (E[b] - E[a]) for (a, b), W in data.weights if a != b)
             if quantity == "isolated":
                 return mp.mpc(s * iso)

@@ -7,6 +7,11 @@ Imports sympy, :mod:`symresp.conventions`, :mod:`symresp.errors`, :mod:`symresp.
 
 from ._derive import Derivation, Level, StaticKind, Transition, derive, present
 from ._motion import Gibbs, MotionDerivation, PolePair, derive_motion
+from ._quantities import (CASE_QUANTITIES, CHECKED_QUANTITIES, DEFAULT_CASE_QUANTITIES,
+                          QUANTITIES, STATIC_KINDS, Quantity, QuantityInfo, check_quantity,
+                          quantity_expression)
 
 __all__ = ["Derivation", "Level", "Transition", "StaticKind", "derive", "present", "MotionDerivation",
-           "PolePair", "Gibbs", "derive_motion"]
+           "PolePair", "Gibbs", "derive_motion", "QUANTITIES", "QuantityInfo", "Quantity",
+           "STATIC_KINDS", "CASE_QUANTITIES", "DEFAULT_CASE_QUANTITIES", "CHECKED_QUANTITIES",
+           "check_quantity", "quantity_expression"]
