@@ -27,7 +27,7 @@ from .conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from .errors import InputError
 from .models import Budget, System
 from .response import (CHECKED_QUANTITIES, Derivation, Level, Quantity, StaticKind, Transition,
-                       check_quantity, derive, quantity_expression)
+                       check_quantity, derive, evaluate_exact, quantity_expression)
 
 __all__ = ["Model", "Response", "load_case"]
 
@@ -678,9 +678,7 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
         if time_value is None:
             raise InputError("evaluate: give time_value for the 'time' quantity")
         subs[t] = _exact(_real_number(time_value, "evaluate: time_value"))
-    # Each implicit root is evaluated once (CRootOf isolates its root again on every evalf call).
-    subs.update({r: r.evalf(40) for r in expr.atoms(sp.CRootOf)})  # complex ones too
-    value = complex(sp.N(expr.xreplace(subs), 30))
+    value = evaluate_exact(expr, subs, where="evaluate")
     if cmath.isfinite(value) or not p:
         return value
     # A removable singularity of the closed form: two levels meet at this point, e.g. a term
@@ -695,11 +693,9 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
     for i, k in enumerate(sorted(p, key=lambda s: s.name)):
         v = subs[k]
         nudged[k] = v * (1 + (i + 1) * _NUDGE) if v != 0 else (i + 1) * _NUDGE
-    at = expr.xreplace(nudged)
-    at = at.xreplace({r: r.evalf(80) for r in at.atoms(sp.CRootOf)})
     # Weights of a block whose eigenvectors are undefined at the point can be singular to
     # second order: 60 digits leave 30 after the cancellation.
-    return complex(sp.N(at, 60))
+    return evaluate_exact(expr, nudged, digits=60, where="evaluate")
 
 
 @public

@@ -8,7 +8,6 @@ conventions, algebra, text, models, response, numeric). The format is documented
 from ._curves import Curves, response_curves
 from ._find import (ENV_VARIABLE, CaseSummary, bundled_cases, case_directories, case_summary,
                     find_case)
-from ._numbers import PRECISE_DIGITS, evaluate_arrays, evaluate_precise
 from ._read import (ASSUMPTIONS, DEFAULT_QUANTITIES, MAX_CASE_BYTES, MAX_CASE_DEPTH, QUANTITIES,
                     CASE_SITE_WORDS, Case, Parameter, ResponseRequest, SiteSpec, nesting_fault,
                     parse_case, read_case)
@@ -23,7 +22,6 @@ __all__ = [
     "Case", "Parameter", "SiteSpec", "ResponseRequest", "read_case", "parse_case",
     "QUANTITIES", "DEFAULT_QUANTITIES", "ASSUMPTIONS", "CASE_SITE_WORDS", "MAX_CASE_BYTES",
     "MAX_CASE_DEPTH", "nesting_fault", "find_case", "bundled_cases", "case_directories", "case_summary", "CaseSummary", "ENV_VARIABLE",
-    "evaluate_precise", "evaluate_arrays", "PRECISE_DIGITS",
     "derive_case", "verify_case", "Check", "Verification", "sample_point", "energy_scale",
     "VERIFY_RTOL", "VERIFY_ATOL", "Curves", "response_curves",
     "Magnetism", "ZeemanSpec", "SampleSpec", "ORIENTATIONS",

@@ -37,10 +37,10 @@ from .._public import public
 from ..conventions import T, beta, eta, omega, t
 from ..errors import InputError
 from ..models import checkpoint
-from ..response import CHECKED_QUANTITIES, Derivation, Quantity, check_quantity
+from ..response import CHECKED_QUANTITIES, Derivation, Quantity, check_quantity, to_mp
 from ..text import ParseError, parse_scalar
 from ._points import (PREC_BITS, WORKING_DIGITS, LevelData, draw_beta, draw_parameters, draw_real,
-                      lehmann_value, level_data, to_mp)
+                      lehmann_value, level_data)
 
 __all__ = ["Verdict", "compare", "Quantity", "QUANTITIES"]
 
