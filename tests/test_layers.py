@@ -7,9 +7,10 @@ What is checked:
   the public facade's table of names) points to its own rank or lower;
 * every third-party import of a layer is one the layer may use (THIRD_PARTY), and an optional
   dependency is imported only in its one module, guarded by ``except ImportError``;
-* the numeric reference is a leaf: its modules import numpy, the standard library and
-  ``symresp.errors`` only, and ``import symresp.numeric`` in a fresh interpreter loads neither
-  sympy nor mpmath nor flint (so the package facade must not load them either);
+* the numeric reference is a leaf: its modules import numpy, the standard library,
+  ``symresp.errors`` and ``symresp._tolerances`` only, and ``import symresp.numeric`` in a
+  fresh interpreter loads neither sympy nor mpmath nor flint (so the package facade must not
+  load them either);
 * no import sits inside a function body;
 * the reserved symbols of ``symresp.conventions`` (beta, omega, t, eta, T, nu) are created
   nowhere else, neither in code nor in doctest examples.
@@ -30,7 +31,7 @@ PACKAGE = Path(__file__).resolve().parents[1] / "symresp"
 
 #: Rank of each layer; a module may import only from its own rank or lower ones.
 RANKS = {
-    "conventions": 0, "errors": 0, "_public": 0, "_files": 0,
+    "conventions": 0, "errors": 0, "_public": 0, "_tolerances": 0, "_files": 0,
     "algebra": 1, "numeric": 1, "text": 2, "models": 3, "spectrum": 4, "response": 5,
     "checks": 6, "emit": 7, "cases": 8, "_api": 9, "batch": 9, "cli": 10, "__main__": 11,
     "__init__": 11,
@@ -39,7 +40,7 @@ RANKS = {
 #: Third-party packages each layer may import (the standard library is always allowed).
 _SYMBOLIC = {"sympy", "mpmath", "numpy"}
 THIRD_PARTY = {
-    "errors": set(), "_public": set(), "_files": set(), "conventions": {"sympy"},
+    "errors": set(), "_public": set(), "_files": set(), "_tolerances": set(), "conventions": {"sympy"},
     "numeric": {"numpy"},
     "algebra": {"sympy", "numpy"}, "text": {"sympy"}, "models": {"sympy"},
     "spectrum": _SYMBOLIC | {"flint"}, "response": _SYMBOLIC, "checks": _SYMBOLIC,
@@ -139,7 +140,7 @@ def test_every_import_points_down_the_layer_order():
             where = f"{path.relative_to(PACKAGE)}:{line}"
             if target not in RANKS:
                 bad.append(f"{where} imports symresp.{target}, which has no rank")
-            elif layer == "numeric" and target not in ("numeric", "errors"):
+            elif layer == "numeric" and target not in ("numeric", "errors", "_tolerances"):
                 bad.append(f"{where} numeric (a leaf) imports {target}")
             elif RANKS[target] > RANKS[layer]:
                 bad.append(f"{where} {layer} (rank {RANKS[layer]}) imports {target} "
