@@ -28,11 +28,12 @@ from .emit import (draw_levels, draw_map, draw_spectrum, draw_static, draw_sweep
 from .conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from .errors import InputError
 from .models import Budget, System
-from .response import Derivation, Level, Presentation, Transition, derive, present_response
+from .response import (CHECKED_QUANTITIES, Derivation, Level, Presentation, Quantity, StaticKind,
+                       Transition, check_quantity, derive, evaluate_exact, present_response,
+                       quantity_expression)
 
 __all__ = ["Model", "Response", "load_case"]
 
-Quantity = Literal["isothermal", "isolated", "frequency", "time", "partition"]
 
 
 @public
@@ -349,7 +350,7 @@ class Response:
         """False when some level is an implicit root (semi-closed form)."""
         return self._d.spectrum.is_closed_form
 
-    def static(self, kind: Literal["isothermal", "isolated"] = "isothermal") -> sp.Expr:
+    def static(self, kind: StaticKind = "isothermal") -> sp.Expr:
         r"""Static susceptibility in ``sr.beta`` and the parameters.
 
         ``"isothermal"``: :math:`\partial\langle A\rangle/\partial f` at fixed temperature;
@@ -464,7 +465,7 @@ class Response:
         with self._budgeted():
             return self._d.matsubara(nu)
 
-    def zero_temperature(self, kind: Literal["isothermal", "isolated"] = "isothermal") -> sp.Expr:
+    def zero_temperature(self, kind: StaticKind = "isothermal") -> sp.Expr:
         r"""Static susceptibility at T = 0 (ground level = the lowest level at the sample point).
 
         Examples
@@ -796,11 +797,8 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
     system = r.derivation.system
     p = _numeric_params(system, params)
     missing = set(system.parameters) - set(p)
-    exprs = {"isothermal": lambda: r.static("isothermal"), "isolated": lambda: r.static("isolated"),
-             "frequency": r.frequency, "time": r.time, "partition": r.partition_function}
-    if quantity not in exprs:
-        raise InputError(f"evaluate: quantity={quantity!r} must be one of {', '.join(exprs)}")
-    expr = exprs[quantity]()
+    check_quantity(quantity, CHECKED_QUANTITIES, "evaluate: quantity")
+    expr = quantity_expression(r.derivation, quantity)
     missing &= expr.free_symbols
     if missing:
         raise InputError(f"evaluate: give values for {', '.join(sorted(map(str, missing)))} in params=")
@@ -824,9 +822,7 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
         if time_value is None:
             raise InputError("evaluate: give time_value for the 'time' quantity")
         subs[t] = _exact(_real_number(time_value, "evaluate: time_value"))
-    # Each implicit root is evaluated once (CRootOf isolates its root again on every evalf call).
-    subs.update({r: r.evalf(40) for r in expr.atoms(sp.CRootOf)})  # complex ones too
-    value = complex(sp.N(expr.xreplace(subs), 30))
+    value = evaluate_exact(expr, subs, where="evaluate")
     if cmath.isfinite(value) or not p:
         return value
     # A removable singularity of the closed form: two levels meet at this point, e.g. a term
@@ -841,11 +837,9 @@ def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T
     for i, k in enumerate(sorted(p, key=lambda s: s.name)):
         v = subs[k]
         nudged[k] = v * (1 + (i + 1) * _NUDGE) if v != 0 else (i + 1) * _NUDGE
-    at = expr.xreplace(nudged)
-    at = at.xreplace({r: r.evalf(80) for r in at.atoms(sp.CRootOf)})
     # Weights of a block whose eigenvectors are undefined at the point can be singular to
     # second order: 60 digits leave 30 after the cancellation.
-    return complex(sp.N(at, 60))
+    return evaluate_exact(expr, nudged, digits=60, where="evaluate")
 
 
 @public

@@ -9,7 +9,9 @@ from ._constructors import (MAX_CUTOFF, MAX_LEVELS, MAX_SPIN, LevelSite, SpinSit
 from ._matrix import MAX_DIMENSION, Basis, SparseForm, sparse_form, to_array, to_sympy_matrix
 from ._operators import (Monomial, Operator, anticommutator, as_coefficient, as_operator, commutator,
                          dagger, exact_decimal)
-from ._sites import Site, local_parity
+from ._kinds import (CASE_SITE_WORDS, SITE_KINDS, SiteKindInfo, ladder_value, natural_term,
+                     natural_value, site_kind)
+from ._sites import BOSON, FERMION, LEVEL, SPIN, Site, local_parity
 
 __all__ = [
     "Site", "local_parity", "Operator", "Monomial", "as_coefficient", "as_operator", "dagger",
@@ -17,5 +19,6 @@ __all__ = [
     "SpinSite", "LevelSite", "describe", "SpinVector", "MAX_SPIN", "MAX_LEVELS", "MAX_CUTOFF",
     "Basis", "SparseForm", "sparse_form", "to_sympy_matrix", "to_array", "MAX_DIMENSION",
     "OperatorSpace", "close_under", "coordinates", "MAX_SPACE_DIMENSION", "MAX_COMMUTATORS",
-    "exact_decimal",
+    "exact_decimal", "SPIN", "LEVEL", "FERMION", "BOSON", "SITE_KINDS", "SiteKindInfo",
+    "site_kind", "CASE_SITE_WORDS", "natural_term", "natural_value", "ladder_value",
 ]

@@ -19,7 +19,7 @@ from .._public import public
 from ..errors import InputError
 from ._operators import Operator, as_coefficient
 from ._operators import dagger as _dagger_of
-from ._sites import Site, check_name
+from ._sites import BOSON, FERMION, LEVEL, SPIN, Site, check_name
 
 __all__ = ["spin", "nlevel", "fermion", "spinful_fermion", "boson", "SpinSite", "LevelSite",
            "SpinVector", "MAX_SPIN", "MAX_LEVELS", "MAX_CUTOFF", "describe"]
@@ -247,7 +247,7 @@ def spin(name: str, S: object) -> SpinSite:
     nlevel, fermion, boson
     """
     value = _spin_value(S)
-    site = Site(check_name(name), "spin", int(2 * value + 1), spin=value)
+    site = Site(check_name(name), SPIN, int(2 * value + 1), spin=value)
     return SpinSite(site)
 
 
@@ -285,7 +285,7 @@ def nlevel(name: str, n: int) -> LevelSite:
     """
     if not isinstance(n, int) or isinstance(n, bool) or not 2 <= n <= MAX_LEVELS:
         raise InputError(f"nlevel {name!r}: n={n!r} must be an integer from 2 to {MAX_LEVELS}")
-    return LevelSite(Site(check_name(name), "level", n))
+    return LevelSite(Site(check_name(name), LEVEL, n))
 
 
 @public
@@ -318,7 +318,7 @@ def fermion(name: str) -> Operator:
     --------
     spinful_fermion, dagger
     """
-    return Operator.local(Site(check_name(name), "fermion", 2), ("u", 0, 1))
+    return Operator.local(Site(check_name(name), FERMION, 2), ("u", 0, 1))
 
 
 @public
@@ -375,7 +375,7 @@ def boson(name: str, cutoff: int) -> Operator:
     """
     if not isinstance(cutoff, int) or isinstance(cutoff, bool) or not 1 <= cutoff <= MAX_CUTOFF:
         raise InputError(f"boson {name!r}: cutoff={cutoff!r} must be an integer from 1 to {MAX_CUTOFF}")
-    return Operator.local(Site(check_name(name), "boson", cutoff + 1), ("b", 0, 1))
+    return Operator.local(Site(check_name(name), BOSON, cutoff + 1), ("b", 0, 1))
 
 
 def describe(op: Operator) -> str:
@@ -393,11 +393,11 @@ def describe(op: Operator) -> str:
     from_dagger = _dagger_of
     names: list[tuple[str, Operator]] = []
     for site in sorted(op.sites, key=lambda s: s.order):
-        if site.kind == "spin":
+        if site.kind == SPIN:
             h = SpinSite(site)
             names += [(f"{site.name}.x", h.x), (f"{site.name}.y", h.y), (f"{site.name}.z", h.z)]
-        elif site.kind in ("fermion", "boson"):
-            c = Operator.local(site, ("u", 0, 1) if site.kind == "fermion" else ("b", 0, 1))
+        elif site.kind in (FERMION, BOSON):
+            c = Operator.local(site, ("u", 0, 1) if site.is_fermion else ("b", 0, 1))
             cd = from_dagger(c)
             names += [(site.name, c), (f"adj({site.name})", cd), (f"n({site.name})", cd * c)]
     if not names:

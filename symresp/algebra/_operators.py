@@ -350,7 +350,7 @@ def _factor_str(site: Site, key: LocalKey) -> str:
         ann = f"{n}" + (f"^{q}" if q > 1 else "") if q else ""
         return "*".join(x for x in (cre, ann) if x)
     _, i, j = key
-    if site.kind == "fermion":
+    if site.is_fermion:
         return {(0, 1): n, (1, 0): f"{n}^+", (1, 1): f"n_{n}"}[(i, j)]
     return f"{n}|{site.label(i)}><{site.label(j)}|"
 

@@ -29,9 +29,15 @@ import sympy as sp
 
 from ..errors import InputError
 
-__all__ = ["Site", "SiteKind", "LocalKey", "local_parity", "check_name"]
+__all__ = ["Site", "SiteKind", "LocalKey", "local_parity", "check_name", "SPIN", "LEVEL",
+           "FERMION", "BOSON"]
 
 SiteKind = Literal["spin", "level", "fermion", "boson"]
+#: The kinds of site (everything else about them: :mod:`._kinds`).
+SPIN: SiteKind = "spin"
+LEVEL: SiteKind = "level"
+FERMION: SiteKind = "fermion"
+BOSON: SiteKind = "boson"
 LocalKey = tuple[str, int, int]
 
 # Creation stamps give every site a place in the global site order. The counter only ever
@@ -76,7 +82,7 @@ class Site:
     @property
     def is_fermion(self) -> bool:
         """True for fermion modes (odd operators anticommute between modes)."""
-        return self.kind == "fermion"
+        return self.kind == FERMION
 
     def m_of(self, index: int) -> sp.Rational:
         """S^z eigenvalue of local basis state ``index`` of a spin site."""
@@ -85,12 +91,12 @@ class Site:
 
     def label(self, index: int) -> str:
         """Readable label of local basis state ``index`` (used in level tables)."""
-        if self.kind == "spin":
+        if self.kind == SPIN:
             return str(self.m_of(index))
         return str(index)
 
     def __repr__(self) -> str:
-        extra = f", S={self.spin}" if self.kind == "spin" else f", dim={self.dim}"
+        extra = f", S={self.spin}" if self.kind == SPIN else f", dim={self.dim}"
         return f"Site({self.name!r}, {self.kind}{extra})"
 
 

@@ -10,9 +10,8 @@ from ._find import (ENV_VARIABLE, CaseSummary, bundled_cases, case_directories, 
                     find_case)
 from ._columns import read_columns
 from ._json import Presented, case_json, decimal, present_case
-from ._numbers import PRECISE_DIGITS, evaluate_arrays, evaluate_precise
 from ._read import (ASSUMPTIONS, DEFAULT_QUANTITIES, MAX_CASE_BYTES, MAX_CASE_DEPTH, QUANTITIES,
-                    SITE_KINDS, Case, Parameter, ResponseRequest, SiteSpec, nesting_fault,
+                    CASE_SITE_WORDS, Case, Parameter, ResponseRequest, SiteSpec, nesting_fault,
                     parse_case, read_case)
 from ._data import COLUMNS, MEASURED, DataTable, parse_data, read_data
 from ._fit import Curve, FitResult, MagnetometryModel, fit_case, magnetometry_model
@@ -23,9 +22,8 @@ from ._verify import (VERIFY_ATOL, VERIFY_RTOL, Check, Verification, derive_case
 
 __all__ = [
     "Case", "Parameter", "SiteSpec", "ResponseRequest", "read_case", "parse_case",
-    "QUANTITIES", "DEFAULT_QUANTITIES", "ASSUMPTIONS", "SITE_KINDS", "MAX_CASE_BYTES",
+    "QUANTITIES", "DEFAULT_QUANTITIES", "ASSUMPTIONS", "CASE_SITE_WORDS", "MAX_CASE_BYTES",
     "MAX_CASE_DEPTH", "nesting_fault", "find_case", "bundled_cases", "case_directories", "case_summary", "CaseSummary", "ENV_VARIABLE",
-    "evaluate_precise", "evaluate_arrays", "PRECISE_DIGITS",
     "derive_case", "verify_case", "Check", "Verification", "sample_point", "energy_scale",
     "VERIFY_RTOL", "VERIFY_ATOL", "Curves", "response_curves",
     "Magnetism", "ZeemanSpec", "SampleSpec", "ORIENTATIONS",

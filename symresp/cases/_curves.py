@@ -19,8 +19,7 @@ import sympy as sp
 
 from ..conventions import beta
 from ..errors import InputError
-from ..response import Derivation
-from ._numbers import evaluate_arrays, evaluate_precise
+from ..response import Derivation, evaluate_arrays, evaluate_precise
 from ._read import Case
 from ._verify import energy_scale
 

@@ -43,25 +43,23 @@ from pathlib import Path
 
 import sympy as sp
 
-from ..algebra import (MAX_CUTOFF, MAX_DIMENSION, MAX_LEVELS, MAX_SPIN, LevelSite, Operator,
-                       SpinSite, boson, fermion, nlevel, spin)
+from ..algebra import (CASE_SITE_WORDS, LEVEL, MAX_DIMENSION, MAX_SPIN, SITE_KINDS, SPIN,
+                       LevelSite, Operator, SpinSite, fermion)
 from ..conventions import name_problem
 from .._files import read_text_file
 from ..emit import temperature_unit_name
 from ..errors import InputError, NotConservedError, NotHermitianError
 from ..models import System
+from ..response import CASE_QUANTITIES as QUANTITIES
+from ..response import DEFAULT_CASE_QUANTITIES as DEFAULT_QUANTITIES
 from ..text import RESERVED_WORDS, ParseError, parse_operator
 from ._locate import KeyPlace, Locator
 from ._magnet import Magnetism, read_magnetism
 
 __all__ = ["Case", "Parameter", "SiteSpec", "ResponseRequest", "read_case", "parse_case",
-           "QUANTITIES", "DEFAULT_QUANTITIES", "ASSUMPTIONS", "SITE_KINDS", "MAX_CASE_BYTES",
+           "QUANTITIES", "DEFAULT_QUANTITIES", "ASSUMPTIONS", "CASE_SITE_WORDS", "MAX_CASE_BYTES",
            "MAX_CASE_DEPTH", "nesting_fault"]
 
-#: Quantities a response request may ask for.
-QUANTITIES = ("isothermal", "isolated", "frequency", "time", "correlation")
-#: Quantities asked for when a request does not say.
-DEFAULT_QUANTITIES = ("isothermal", "isolated", "frequency")
 #: Assumptions a parameter may carry, and the sympy assumptions they stand for.
 ASSUMPTIONS: Mapping[str, Mapping[str, bool]] = {
     "real": {"real": True},
@@ -69,7 +67,8 @@ ASSUMPTIONS: Mapping[str, Mapping[str, bool]] = {
     "nonnegative": {"nonnegative": True, "real": True},
 }
 #: Kinds of site, as written in the [sites] table.
-SITE_KINDS = ("spin", "levels", "fermion", "spinful fermion", "boson")
+#: The case-file words of the site kinds.
+_BY_WORD = {info.word: info for info in SITE_KINDS.values()}
 #: Largest case file accepted (bytes).
 MAX_CASE_BYTES = 1_000_000
 #: Deepest nesting of arrays and inline tables in a case file (a case needs 3 or 4).
@@ -581,27 +580,29 @@ class _Reader:
         words = kind.split()
         head = " ".join(words[:2]) if words[:2] == ["spinful", "fermion"] else (words[0] if words else "")
         rest = words[2:] if head == "spinful fermion" else words[1:]
-        if head not in SITE_KINDS:
-            raise self.fail(where, f"unknown kind of site {kind!r}{_nearest(head, SITE_KINDS)}; "
-                                   f"kinds: \"spin S\", \"levels N\", \"fermion\", "
-                                   f"\"spinful fermion\", \"boson CUTOFF\"", place)
-        needs_number = head in ("spin", "levels", "boson")
-        example = {"spin": "spin 1/2", "levels": "levels 3", "boson": "boson 6"}.get(head, head)
-        if needs_number and len(rest) != 1 or not needs_number and rest:
-            raise self.fail(where, f"{kind!r} is malformed: write \"{example}\"", place)
-        if head == "spin":
-            S = self.spin_value(rest[0], where, place)
-            h = spin(sname, S)
-            return [(sname, h)], h.site.dim
-        if head == "levels":
-            n = self.integer(rest[0], where, place, "number of levels", 2, MAX_LEVELS)
-            return [(sname, nlevel(sname, n))], n
-        if head == "boson":
-            n = self.integer(rest[0], where, place, "boson cutoff", 1, MAX_CUTOFF)
-            return [(sname, boson(sname, n))], n + 1
-        if head == "fermion":
-            return [(sname, fermion(sname))], 2
-        return [(sname + "_up", fermion(sname + "_up")), (sname + "_dn", fermion(sname + "_dn"))], 4
+        if head not in CASE_SITE_WORDS:
+            kinds = ", ".join(f'"{w} {i.size}"' if i.size else f'"{w}"' for w, i in _BY_WORD.items())
+            raise self.fail(where, f"unknown kind of site {kind!r}"
+                                   f"{_nearest(head, CASE_SITE_WORDS)}; kinds: {kinds}, "
+                                   f"\"spinful fermion\"", place)
+        if head == "spinful fermion":
+            if rest:
+                raise self.fail(where, f"{kind!r} is malformed: write \"spinful fermion\"", place)
+            return [(m, fermion(m)) for m in (sname + "_up", sname + "_dn")], 4
+        info = _BY_WORD[head]
+        if (info.size is not None) != (len(rest) == 1) or len(rest) > 1:
+            raise self.fail(where, f"{kind!r} is malformed: write \"{info.example}\"", place)
+        if info.kind == SPIN:
+            number = self.spin_value(rest[0], where, place)
+        elif info.size is not None:
+            low = 2 if info.kind == LEVEL else 1
+            what = "number of levels" if info.kind == LEVEL else f"{info.word} cutoff"
+            number = self.integer(rest[0], where, place, what, low, info.largest)
+        else:
+            number = None
+        handle = info.build(sname, number)
+        (site,) = handle.sites if isinstance(handle, Operator) else (handle.site,)
+        return [(sname, handle)], site.dim
 
     def spin_value(self, word: str, where: str, place: KeyPlace | None) -> sp.Rational:
         try:

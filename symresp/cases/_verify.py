@@ -38,8 +38,7 @@ from ..algebra import Operator, to_array
 from ..conventions import beta, omega, t
 from ..errors import InputError
 from ..models import Budget
-from ..response import Derivation, derive
-from ._numbers import evaluate_precise
+from ..response import Derivation, derive, evaluate_precise
 from ._read import Case
 
 __all__ = ["derive_case", "verify_case", "Check", "Verification", "sample_point", "energy_scale",

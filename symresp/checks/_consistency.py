@@ -56,8 +56,8 @@ from ..conventions import beta, omega, t
 from ..errors import InputError, SymrespError
 from ..models import checkpoint
 from ..numeric import NumericResponse, correlation_lines, eigensystem, expectation, solve
-from ..response import Derivation, derive
-from ._points import PREC_BITS, compile_expression, draw_beta, draw_parameters, draw_real, to_mp
+from ..response import Derivation, compile_expression, derive, to_mp
+from ._points import PREC_BITS, draw_beta, draw_parameters, draw_real
 
 __all__ = ["CheckRow", "Report", "consistency", "CHECK_NAMES"]
 

@@ -24,16 +24,14 @@ Imports sympy, mpmath, :mod:`symresp.errors`, :mod:`symresp.response`.
 from __future__ import annotations
 
 import random
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 import mpmath as mp
 import sympy as sp
 
 from ..errors import InputError
-from ..numeric import real_roots
-from ..response import Derivation
-from ..spectrum import real_root
+from ..response import PREC_BITS, PRECISE_DIGITS, STATIC_KINDS, Derivation, evaluate_mp
 
 __all__ = [
     "WORKING_DIGITS",
@@ -44,14 +42,10 @@ __all__ = [
     "draw_parameters",
     "draw_beta",
     "draw_real",
-    "to_mp",
-    "compile_expression",
 ]
 
 #: Decimal digits of every high-precision evaluation in the checks.
-WORKING_DIGITS = 30
-#: Binary precision used inside mpmath (a guard of 10 digits over WORKING_DIGITS).
-PREC_BITS = int((WORKING_DIGITS + 10) * 3.33)
+WORKING_DIGITS = PRECISE_DIGITS
 #: Magnitudes of random parameter values: |p| in [1/3, 3] (energies of order one).
 PARAMETER_RANGE = (sp.Rational(1, 3), sp.Integer(3))
 #: Random inverse temperatures: beta in [1/4, 3], from hot to moderately cold.
@@ -85,15 +79,6 @@ def draw_beta(rng: random.Random) -> sp.Rational:
     return draw_real(rng, *BETA_RANGE)
 
 
-def to_mp(value: sp.Expr, where: str = "value") -> mp.mpc:
-    """Evaluate an exact sympy number (possibly with ``CRootOf``) to an mpmath complex number."""
-    try:
-        out = value._to_mpmath(PREC_BITS)
-    except (AttributeError, TypeError, ValueError) as err:
-        raise InputError(f"{where}: {value} could not be evaluated to a number ({err})") from None
-    return mp.mpc(out)
-
-
 @dataclass(frozen=True, slots=True, eq=False)
 class LevelData:
     """Level energies, degeneracies, weights and expectations of a derivation at one point."""
@@ -119,23 +104,16 @@ class LevelData:
         return [mp.exp(-beta * (e - e0)) for e in E]
 
 
-def _evaluate(expr: sp.Expr, point: Mapping[sp.Symbol, sp.Expr], where: str) -> mp.mpc:
-    value = expr if isinstance(expr, sp.Basic) else sp.Integer(expr)
-    if value.free_symbols:
-        value = value.xreplace(dict(point))
-    if value.free_symbols:
-        names = ", ".join(sorted(map(str, value.free_symbols)))
-        raise InputError(f"{where}: no value for {names}")
-    return to_mp(value, where)
-
-
 def level_data(derivation: Derivation, point: Mapping[sp.Symbol, sp.Expr]) -> LevelData:
     """Evaluate the level data of ``derivation`` at the parameter values ``point``."""
     with mp.workprec(PREC_BITS):
-        energies = tuple(_evaluate(lv.energy, point, "level energy").real for lv in derivation.levels)
-        weights = tuple((k, _evaluate(w, point, "weight")) for k, w in sorted(derivation.level_weights.items()))
-        eA = tuple((a, _evaluate(v, point, "expectation")) for a, v in sorted(derivation.expect_A.items()))
-        eB = tuple((a, _evaluate(v, point, "expectation")) for a, v in sorted(derivation.expect_B.items()))
+        def value(expr: sp.Expr, where: str) -> mp.mpc:
+            return evaluate_mp(expr, point, where)
+
+        energies = tuple(value(lv.energy, "level energy").real for lv in derivation.levels)
+        weights = tuple((k, value(w, "weight")) for k, w in sorted(derivation.level_weights.items()))
+        eA = tuple((a, value(v, "expectation")) for a, v in sorted(derivation.expect_A.items()))
+        eB = tuple((a, value(v, "expectation")) for a, v in sorted(derivation.expect_B.items()))
     conv = derivation.convention
     return LevelData(energies, tuple(lv.degeneracy for lv in derivation.levels), weights, eA, eB,
                      conv.sign, conv.frequency_sign)
@@ -156,7 +134,7 @@ def lehmann_value(data: LevelData, quantity: str, beta: mp.mpf, *, z: mp.mpc | N
             return mp.mpc(mp.exp(-beta * min(E)) * zr)
         p = [xa / zr for xa in x]
         s = data.sign
-        if quantity in ("isothermal", "isolated"):
+        if quantity in STATIC_KINDS:
             iso = mp.fsum((p[a] - p[b]) * W / (E[b] - E[a]) for (a, b), W in data.weights if a != b)
             if quantity == "isolated":
                 return mp.mpc(s * iso)
@@ -176,33 +154,3 @@ def lehmann_value(data: LevelData, quantity: str, beta: mp.mpf, *, z: mp.mpc | N
             return mp.mpc(s * 1j * mp.fsum((p[a] - p[b]) * W * mp.exp(-1j * (E[b] - E[a]) * time)
                                            for (a, b), W in data.weights if a != b))
     raise InputError(f"lehmann_value: unknown quantity {quantity!r}")
-
-
-def _constants_as_floats(expr: sp.Expr) -> sp.Expr:
-    """Replace exact implicit roots (``CRootOf`` of rational polynomials) by 40-digit floats."""
-    roots = expr.atoms(sp.CRootOf)
-    if not roots:
-        return expr
-    return expr.xreplace({r: r.evalf(WORKING_DIGITS + 10) for r in roots})
-
-
-def _level_root_mp(k, *coeffs):
-    """k-th smallest real root of a parametric characteristic factor, in mpmath."""
-    return real_root(k, coeffs, mp, extra=2 * mp.mp.prec)
-
-
-def _level_root_np(k, *coeffs):
-    """The same with numpy arrays of coefficients."""
-    return real_roots(coeffs)[..., int(k)]
-
-
-def compile_expression(expr: sp.Expr, args: Sequence[sp.Symbol], backend: str = "mpmath") -> Callable:
-    """A fast numeric function of ``args`` for a symresp-produced expression.
-
-    ``sympy.lambdify`` prints the expression tree to code; it is only ever given expressions
-    built by symresp itself (never user text). Implicit roots with rational coefficients become
-    40-digit constants; parametric ones (``LevelRoot``) are solved at each call.
-    """
-    e = expr if isinstance(expr, sp.Basic) else sp.Integer(expr)
-    roots = {"LevelRoot": _level_root_mp if backend == "mpmath" else _level_root_np}
-    return sp.lambdify(tuple(args), _constants_as_floats(e), modules=[roots, backend])

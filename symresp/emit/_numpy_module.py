@@ -33,7 +33,7 @@ from ._printers import ArrayPrinter, ScalarPrinter
 from ._program import (Program, energies_program, jacobian_program, omega_program,
                        params_program, poles_program, spectral_program, static_program,
                        time_program)
-from ._runtime import RUNTIME
+from ._runtime import runtime_source
 from ._runtime_roots import ROOTS_RUNTIME
 
 __all__ = ["numpy_module_source", "compile_module", "numpy_functions", "symresp_version"]
@@ -493,7 +493,7 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
         *[f"    {sp.sstr(e)!r}," for e in plan.energies],
         ")",
     ]
-    src += RUNTIME.splitlines()
+    src += runtime_source().splitlines()
     src += CORRELATION_RUNTIME.splitlines()
     if plan.roots:
         src += ROOTS_RUNTIME.splitlines()

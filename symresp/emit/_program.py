@@ -24,6 +24,7 @@ from dataclasses import dataclass
 
 import sympy as sp
 
+from .._tolerances import DEGENERACY_RTOL as _DEGENERACY_RTOL
 from ._functions import (AsComplex, AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal, DegeneracyTol, ExpDiv,
                          ExpDiv2, Keep, LevelMin, RootPick)
 from ._plan import Plan
@@ -33,8 +34,8 @@ __all__ = ["Program", "params_program", "static_program", "jacobian_program",
            "poles_program", "omega_program", "spectral_program", "time_program",
            "energies_program", "differentiate", "BETA", "DEGENERACY_RTOL"]
 
-#: Relative level-grouping tolerance of the isolated susceptibility, as in symresp.numeric.
-DEGENERACY_RTOL = sp.Float("1e-9")
+#: Relative level-grouping tolerance of the isolated susceptibility (symresp._tolerances).
+DEGENERACY_RTOL = sp.Float(_DEGENERACY_RTOL)
 
 BETA = sp.Symbol("_beta", positive=True)
 TEMPERATURE = sp.Symbol("_T", positive=True)

@@ -34,10 +34,9 @@ import sympy as sp
 
 from .._public import public
 from ..algebra import Operator, SpinSite
-from ..checks._points import compile_expression
 from ..errors import InputError
 from ..models import Budget, System
-from ..response import derive
+from ..response import compile_expression, derive
 from ..spectrum import LevelRoot
 from ._magnet import field_direction, magnetic_moment
 from ._units import (EXACT, TEMPERATURE_UNITS, energy_in_joule_exact, temperature_unit_name,

@@ -1,11 +1,11 @@
-r"""Fixed runtime support copied verbatim into every emitted module (layer: emit).
+r"""Runtime support of every emitted module, a module of its own (layer: emit).
 
-This text is the same for every model: input checks, the chunked drivers and the numerically
+It is the same for every model: input checks, the chunked drivers and the numerically
 stable helpers that the printers call (``_bexp``, ``_expdiv``, ``_expdiv2``, ...), each in an
 array (``_a``) and a scalar (``_s``) flavour. Model-specific code is never spliced into it; it
 is printed separately by :mod:`symresp.emit._printers`. A test imports the emitted modules in
-a process where sympy cannot be imported, so this text must use numpy and the standard library
-only. Stage P at float parameters is remembered, one entry per parameter kernel: plots and
+a process where sympy cannot be imported, so the copied part uses numpy and the standard
+library only. Stage P at float parameters is remembered, one entry per parameter kernel: plots and
 global fits evaluate the same parameters on several grids (measured on the spin-1/2 dimer: a
 hit saves 0.3 us of a 7 us call, a miss costs 0.15 us more than no memory at all).
 
@@ -15,10 +15,57 @@ Stable forms (:math:`y = \beta|w| \ge 0`):
 * :math:`\psi(y) = (1 - e^{-y} - y)/y^2`, series below :math:`y = 10^{-2}`;
 * :math:`\psi(y) + \varphi(y) = (1 - e^{-y}(1 + y))/y^2`, series below :math:`y = 10^{-2}`.
 
-Imports: nothing (a text constant).
+Everything from the line ``# === copied into every emitted module ===`` on is copied verbatim
+by :func:`runtime_source`; what stands above it lets this module be imported and tested like
+any other: the imports every emitted module makes, its ``PARAMETERS`` (each emitted module
+defines its own) and the constants of the tolerance policy (:mod:`symresp._tolerances`), which
+:func:`runtime_source` writes into the copy as numbers.
+
+Imports: numpy, math, cmath and :mod:`symresp._tolerances` (the copied text: numpy, math and
+cmath only).
 """
 
-RUNTIME = r'''
+from __future__ import annotations
+
+import cmath
+import math
+from pathlib import Path
+
+import numpy
+
+from .._tolerances import DEGENERACY_RTOL
+
+__all__ = ["runtime_source", "MARKER"]
+
+#: The line after which the text of this module is copied into emitted modules.
+MARKER = "# === copied into every emitted module ==="
+
+#: Parameter names; every emitted module defines its own.
+PARAMETERS: tuple[str, ...] = ()
+#: Level-grouping tolerance of the isolated susceptibility, relative to max|E| at the point
+#: (no absolute floor: the same model in kelvin and in joules groups the same levels).
+_DEGENERACY_RTOL = DEGENERACY_RTOL
+
+
+def runtime_source() -> str:
+    """The runtime text of an emitted module: the policy constants, then the text of this
+    module after :data:`MARKER`.
+
+    Examples
+    --------
+    >>> from symresp.emit._runtime import runtime_source
+    >>> text = runtime_source()
+    >>> text.splitlines()[0]
+    '_DEGENERACY_RTOL = 1e-09'
+    >>> "\\nimport " in text
+    False
+    """
+    own = Path(__file__).read_text(encoding="utf-8")
+    start = own.index("\n" + MARKER + "\n") + len(MARKER) + 2
+    return f"_DEGENERACY_RTOL = {DEGENERACY_RTOL!r}\n" + own[start:]
+
+
+# === copied into every emitted module ===
 # ------------------------------------------------------------------------------------------
 # Runtime support (the same in every emitted module).
 # ------------------------------------------------------------------------------------------
@@ -34,9 +81,6 @@ _CHUNK_COMPLEX = 8192
 _TINY = 1e-300
 #: Below this y the series of psi are used (truncation error < 3e-13 relative).
 _SERIES = 1e-2
-#: Level-grouping tolerance of the isolated susceptibility, relative to max|E| at the point (no
-#: absolute floor: the same model in kelvin and in joules groups the same levels).
-_DEGENERACY_RTOL = 1e-9
 #: Lowest temperature: below it 1/T overflows a float (1/1.8e308).
 _T_MIN = 1.0 / 1.7976931348623157e308
 _F64 = numpy.dtype(float)
@@ -557,4 +601,3 @@ def _sqrt_a(x):
 
 def _causal_a(t, value):
     return numpy.where(t >= 0, value, 0.0)
-'''

@@ -15,10 +15,9 @@ from typing import TypeVar
 
 import numpy as np
 
+from symresp._tolerances import HERMITIAN_RTOL, hermitian_tolerance
 from symresp.errors import InputError, NotHermitianError
 
-#: ``H`` counts as Hermitian when ``max|H - H^dagger| <= 1e-10 * max(1, max|H|)``.
-HERMITIAN_RTOL = 1e-10
 
 _F = TypeVar("_F", bound=Callable)
 
@@ -54,12 +53,12 @@ def _as_matrix(name: str, value: object) -> np.ndarray:
 
 def _as_hamiltonian(H: object) -> np.ndarray:
     h = _as_matrix("H", H)
-    scale = max(1.0, float(np.max(np.abs(h))))
+    scale = float(np.max(np.abs(h)))
     defect = float(np.max(np.abs(h - h.conj().T)))
-    if defect > HERMITIAN_RTOL * scale:
+    if defect > hermitian_tolerance(scale):
         raise NotHermitianError(
             f"H={_short(H)} is not Hermitian: max|H - H^dagger| = {defect:.3g} "
-            f"exceeds {HERMITIAN_RTOL:g} * {scale:.3g}"
+            f"exceeds {HERMITIAN_RTOL:g} * max|H| = {hermitian_tolerance(scale):.3g}"
         )
     # Symmetrise so that rounding noise in the input cannot make eigh see a different matrix.
     return 0.5 * (h + h.conj().T)
@@ -139,7 +138,7 @@ _DOCS = {
     "beta": """beta : float
         Inverse temperature ``> 0`` (``numpy.inf`` allowed).""",
     "degeneracy_tol": """degeneracy_tol : float, optional
-        Level grouping tolerance; default ``1e-9 * max(1, max|E|)``.""",
+        Level grouping tolerance; default ``1e-9 * max|E|``.""",
     "omega_eta": """omega : float or array_like of float
         Real frequencies.
     eta : float

@@ -168,7 +168,7 @@ def poles(
     $HAB
     $beta
     degeneracy_tol : float, optional
-        Level and pole merging tolerance; default ``1e-9 * max(1, max|E|)``.
+        Level and pole merging tolerance; default ``1e-9 * max|E|``.
     weight_tol : float, optional
         Default ``1e-14 * ||A||_F ||B||_F``.
 

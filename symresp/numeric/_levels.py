@@ -12,12 +12,11 @@ from numbers import Integral
 
 import numpy as np
 
+from symresp._tolerances import degeneracy_tolerance
 from symresp.errors import InputError
 
 from ._arguments import _as_hamiltonian, _as_tolerance, _readonly, _short
 
-#: Relative part of the default degeneracy tolerance: ``1e-9 * max(1, max|E|)``.
-DEGENERACY_RTOL = 1e-9
 #: Boltzmann factors below exp(-600) are set to exactly zero. They lie some 250 orders of
 #: magnitude below double precision relative to the ground level, and clamping keeps every
 #: intermediate product a normal float (no underflow, even under ``np.errstate(all="raise")``).
@@ -115,7 +114,7 @@ def _build_eigensystem(
     """Group ascending eigenvalues into levels (consecutive gaps <= tol join a level)."""
     energies = np.asarray(energies, dtype=np.float64)
     if degeneracy_tol is None:
-        degeneracy_tol = DEGENERACY_RTOL * max(1.0, float(np.max(np.abs(energies))))
+        degeneracy_tol = degeneracy_tolerance(float(np.max(np.abs(energies))))
     # A new level starts wherever the gap to the previous eigenvalue exceeds the tolerance.
     labels = np.concatenate([[0], np.cumsum(np.diff(energies) > degeneracy_tol)]).astype(np.int64)
     degeneracies = np.bincount(labels)
@@ -147,7 +146,7 @@ def eigensystem(H: object, *, degeneracy_tol: float | None = None) -> Eigensyste
         Hermitian matrix (within a relative tolerance of 1e-10).
     degeneracy_tol : float, optional
         Eigenvalues whose consecutive gaps are at most this belong to one level. Default
-        ``1e-9 * max(1, max|E|)``.
+        ``1e-9 * max|E|`` (relative: the same levels in any energy unit).
 
     Returns
     -------

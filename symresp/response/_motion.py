@@ -57,7 +57,7 @@ from typing import Literal
 import sympy as sp
 from sympy.polys.matrices import DomainMatrix
 
-from ..algebra import Operator, OperatorSpace, close_under, commutator, coordinates
+from ..algebra import Operator, OperatorSpace, close_under, commutator, coordinates, site_kind
 from ..conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from ..errors import InputError
 from ..models import Budget, Clock, System
@@ -82,7 +82,7 @@ class Gibbs:
     def __init__(self, system: System, budget: Budget) -> None:
         self.system = system
         self.budget = budget
-        self.finite = not any(s.kind == "boson" for s in system.sites)
+        self.finite = all(site_kind(s).finite for s in system.sites)
         self.used = False                 # True once a non-scalar average was needed
 
     def expect(self, Y: Operator) -> sp.Expr | None:

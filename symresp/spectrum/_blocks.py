@@ -29,7 +29,8 @@ import flint
 import numpy as np
 import sympy as sp
 
-from ..algebra import Basis, Site, SparseForm, sparse_form
+from ..algebra import (FERMION, SITE_KINDS, SPIN, Basis, Site, SparseForm, ladder_value,
+                       natural_term, natural_value, sparse_form)
 from ..models import Clock, System
 
 __all__ = ["Block", "QuantumNumber", "BlockStructure", "decompose"]
@@ -122,28 +123,8 @@ def _components(n: int, H: SparseForm) -> list[list[int]]:
     return sorted(groups.values(), key=lambda g: g[0])
 
 
-def _ladder(site: Site, k: int) -> int:
-    """Integer ladder value of local state k: m + S for spins (0 .. 2S), k otherwise."""
-    return int(2 * site.spin) - k if site.kind == "spin" else k
-
-
-def _natural(site: Site, k: int) -> sp.Rational:
-    """The site's natural linear observable on local state k: S^z = m for spins, the number
-    for fermion and boson modes, the level index for n-level sites."""
-    return site.m_of(k) if site.kind == "spin" else sp.Integer(k)
-
-
-def _term(site: Site) -> str:
-    """How the natural observable of a site is written (the formula language's spelling)."""
-    if site.kind == "spin":
-        return f"{site.name}.z"
-    if site.kind == "level":
-        return f"level({site.name})"
-    return f"n({site.name})"
-
-
 def _flavour(site: Site) -> str | None:
-    if site.kind == "fermion":
+    if site.is_fermion:
         for tag in ("up", "dn"):
             if site.name.endswith("_" + tag):
                 return tag
@@ -156,24 +137,25 @@ def _named_linear(sites: tuple[Site, ...]) -> list[tuple[str, str, tuple[Fractio
     kinds = [s.kind for s in sites]
     flav = [_flavour(s) for s in sites]
     zero = [Fraction(0)] * len(sites)
-    if "spin" in kinds or ("up" in flav and "dn" in flav):
-        c = zero[:]
-        for i, s in enumerate(sites):
-            if s.kind == "spin":
-                c[i] = Fraction(1)
-            elif flav[i] is not None:
-                c[i] = Fraction(1 if flav[i] == "up" else -1, 2)
-        out.append(("Sz", "total S^z", tuple(c)))
-    if "fermion" in kinds:
-        out.append(("N", "fermion number",
-                    tuple(Fraction(int(k == "fermion")) for k in kinds)))
-        for tag in ("up", "dn"):
-            idx = [i for i, f in enumerate(flav) if f == tag]
-            if idx and len(idx) < kinds.count("fermion"):
-                out.append((f"N_{tag}", f"number of {tag} fermions",
-                            tuple(Fraction(int(f == tag)) for f in flav)))
-    if "boson" in kinds:
-        out.append(("Nb", "boson number", tuple(Fraction(int(k == "boson")) for k in kinds)))
+    for kind, info in SITE_KINDS.items():
+        if info.family is None:
+            continue
+        name, description = info.family
+        if kind == SPIN and ("up" in flav and "dn" in flav):
+            # spinful fermions carry S^z = (n_up - n_dn)/2 into the total
+            c = zero[:]
+            for i, s in enumerate(sites):
+                c[i] = Fraction(1) if s.kind == SPIN else Fraction(
+                    {"up": 1, "dn": -1}.get(flav[i], 0), 2)
+            out.append((name, description, tuple(c)))
+        elif kind in kinds:
+            out.append((name, description, tuple(Fraction(int(k == kind)) for k in kinds)))
+        if kind == FERMION and kind in kinds:
+            for tag in ("up", "dn"):
+                idx = [i for i, f in enumerate(flav) if f == tag]
+                if idx and len(idx) < kinds.count(FERMION):
+                    out.append((f"N_{tag}", f"number of {tag} fermions",
+                                tuple(Fraction(int(f == tag)) for f in flav)))
     return out
 
 
@@ -188,14 +170,15 @@ def _linear_name(sites: tuple[Site, ...], c: tuple[Fraction, ...]) -> str:
     one coefficient are written by their familiar name, other sites one by one."""
     parts: list[tuple[Fraction, str]] = []
     done: set[int] = set()
-    for kind, name in (("spin", "Sz"), ("fermion", "N"), ("boson", "Nb")):
+    families = [(kind, info.family[0]) for kind, info in SITE_KINDS.items() if info.family]
+    for kind, name in families:
         idx = [i for i, s in enumerate(sites) if s.kind == kind]
         if len(idx) > 1 and c[idx[0]] != 0 and len({c[i] for i in idx}) == 1:
             parts.append((c[idx[0]], name))
             done |= set(idx)
     for i, s in enumerate(sites):
         if i not in done and c[i] != 0:
-            parts.append((c[i], _term(s)))
+            parts.append((c[i], natural_term(s)))
     return "".join(_coefficient_text(v, k == 0) + t for k, (v, t) in enumerate(parts))
 
 
@@ -295,7 +278,7 @@ def _residues(rows: list[tuple[int, ...]], n: int, free: list[tuple[Fraction, ..
 def _residue_name(sites: tuple[Site, ...], p: int, c: tuple[int, ...]) -> str:
     """``(n(a)+q.z+1/2) mod 2``: the residue written with the natural observables
     (u = m + S for spins, so the constant sum_s c_s S_s, reduced mod p, is added)."""
-    offset = sum((sp.Integer(ci) * s.spin for ci, s in zip(c, sites) if s.kind == "spin"),
+    offset = sum((sp.Integer(ci) * s.spin for ci, s in zip(c, sites) if s.kind == SPIN),
                  sp.Integer(0))
     offset = offset - p * sp.floor(offset / p)
     body = _linear_name(sites, tuple(Fraction(x) for x in c))
@@ -335,8 +318,8 @@ def _quantum_numbers(basis: Basis, H: SparseForm, groups: list[list[int]],
     sites = basis.sites
     n = len(sites)
     states = basis.states
-    nat = [[_natural(s, k) for k in range(s.dim)] for s in sites]
-    lad = [[_ladder(s, k) for k in range(s.dim)] for s in sites]
+    nat = [[natural_value(s, k) for k in range(s.dim)] for s in sites]
+    lad = [[ladder_value(s, k) for k in range(s.dim)] for s in sites]
     # Distinct changes of the local states along the off-diagonal elements of H (vectorised:
     # 28 000 elements of a 4096-state ring reduce to a few dozen patterns).
     keys = np.array(list(H), dtype=np.int64).reshape(-1, 2)

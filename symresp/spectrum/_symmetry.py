@@ -44,7 +44,7 @@ from fractions import Fraction
 import flint
 import sympy as sp
 
-from ..algebra import Basis, Operator, SparseForm, dagger, sparse_form
+from ..algebra import SPIN, Basis, Operator, SparseForm, dagger, sparse_form
 from ..models import checkpoint
 
 __all__ = ["Sector", "Operation", "Symmetries", "SECTOR_NAMES", "find_symmetries", "split_block",
@@ -290,7 +290,7 @@ def _total_spin(basis: Basis) -> dict[tuple[int, int], sp.Expr] | None:
     orbitals = fermion_orbitals(sites)
     if orbitals is not None:
         return _fermion_total_spin(basis, orbitals) if len(orbitals[0]) == 2 else None
-    if len(sites) < 2 or any(s.kind != "spin" for s in sites):
+    if len(sites) < 2 or any(s.kind != SPIN for s in sites):
         return None
     spins = [Fraction(int(s.spin.p), int(s.spin.q)) for s in sites]
     index = {st: i for i, st in enumerate(basis.states)}

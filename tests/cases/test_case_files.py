@@ -11,8 +11,8 @@ import pytest
 import sympy as sp
 
 import symresp as sr
-from symresp.cases import (bundled_cases, case_summary, derive_case, evaluate_arrays,
-                           evaluate_precise, find_case, parse_case, read_case, response_curves,
+from symresp.response import evaluate_arrays, evaluate_precise
+from symresp.cases import (bundled_cases, case_summary, derive_case, find_case, parse_case, read_case, response_curves,
                            sample_point, verify_case)
 from symresp.errors import InputError, NotConservedError, NotHermitianError
 from symresp.text import ParseError

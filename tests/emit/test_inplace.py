@@ -21,7 +21,7 @@ from symresp.emit import compile_module, numpy_module_source
 from symresp.emit._functions import Boltzmann, BoltzmannT
 from symresp.emit._inplace import inplace_body
 from symresp.emit._printers import ArrayPrinter
-from symresp.emit._runtime import RUNTIME
+from symresp.emit._runtime import runtime_source
 
 T = sp.Symbol("_T", positive=True)
 P_REAL = sp.Symbol("_p", real=True)
@@ -94,7 +94,7 @@ def _run(body: list[str], returned, env: dict) -> tuple:
     src = f"def _kernel({', '.join(s.name for s in INPUTS)}):\n" + "\n".join(body) + \
         f"\n    return ({', '.join(s.name for s in returned)},)\n"
     namespace: dict = {"numpy": np, "math": math}
-    exec(compile(RUNTIME, "<runtime>", "exec"), namespace)  # noqa: S102 - the emitted helpers
+    exec(compile(runtime_source(), "<runtime>", "exec"), namespace)  # noqa: S102 - the emitted helpers
     exec(compile(src, "<kernel>", "exec"), namespace)  # noqa: S102 - generated test code
     return namespace["_kernel"](*(env[s.name] for s in INPUTS))
 

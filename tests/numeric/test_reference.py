@@ -692,3 +692,19 @@ def test_scalar_inputs_give_python_complex():
     assert isinstance(chi_time(0.5 * SIGMA_Z, SIGMA_X, SIGMA_X, 1.0, 0.3), complex)
     assert r.frequency([0.2, 0.3], 0.1).shape == (2,)
     assert math.isfinite(r.Z)
+
+
+@pytest.mark.parametrize("unit", [1.0, 1.380649e-23, 1e6])
+def test_levels_and_hermiticity_do_not_depend_on_the_energy_unit(unit):
+    # The same model in kelvin, in joules (k_B T) or in micro-units: the same levels, the same
+    # degeneracies, and a non-Hermitian H is refused at every scale (relative tolerances).
+    H = np.diag([0.0, 1.0, 1.0, 3.0]) * unit
+    es = eigensystem(H)
+    assert es.degeneracies.tolist() == [1, 2, 1]
+    assert_close(es.level_energies / unit, [0.0, 1.0, 3.0])
+    r = solve(H, np.eye(4), np.eye(4), 1.0 / unit)
+    assert r.degeneracies.tolist() == [1, 2, 1]
+    bad = H.astype(complex)
+    bad[0, 3] = 1e-6 * unit
+    with pytest.raises(NotHermitianError, match="is not Hermitian"):
+        eigensystem(bad)

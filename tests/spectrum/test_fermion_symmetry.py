@@ -23,8 +23,10 @@ from symresp import numeric
 from symresp.algebra import Basis
 from symresp.models import System
 from symresp.response import derive
-from symresp.spectrum import LevelRoot, solve
+from symresp.spectrum import solve
 from symresp.spectrum._symmetry import find_symmetries, mode_permutation, particle_hole
+
+from .._pieces import derived_sums
 
 from ..conftest import assert_close
 
@@ -193,48 +195,12 @@ def _check(L, N, p, T, *, ring=True, field=False, spinless=False, which="spin"):
     ref = numeric.solve(Hn[np.ix_(keep, keep)], An, An, 1 / T)
     r = model.response(A())
     z = 0.37 + 0.21j
-    iso_T, iso, dyn, energies = _values(r.derivation, p, T, z)
+    iso_T, iso, dyn, energies = derived_sums(r.derivation, p, T, z)
     assert_close(iso_T, ref.isothermal, what="isothermal")
     assert_close(iso, ref.isolated, what="isolated")
     assert_close(dyn, ref.frequency(np.array([z.real]), z.imag)[0], what="chi(z)")
     assert_close(energies, np.linalg.eigvalsh(Hn[np.ix_(keep, keep)]), what="levels")
     return r
-
-
-def _values(d, p: dict, T: float, z: complex):
-    """Isothermal, isolated, chi(z) and all energies summed from the derivation's exact pieces.
-
-    Implicit roots are evaluated once each (30 digits) before the weights, which contain them
-    many times; the sums follow docs/engine.md section 5.
-    """
-    pt = {s: sp.Float(p[s.name], 30) for s in d.system.parameters}
-    roots: dict = {}
-
-    def num(e):
-        e = sp.sympify(e).xreplace(pt)
-        for r in e.atoms(LevelRoot):
-            if r not in roots:
-                roots[r] = sp.Float(r.evalf(40), 40)
-        return complex(sp.N(e.xreplace(roots), 25))
-
-    E = np.array([num(lv.energy).real for lv in d.levels])
-    g = np.array([lv.degeneracy for lv in d.levels])
-    x = np.exp(-(E - E.min()) / T)
-    pop = x / np.sum(g * x)
-    close = 1e-9 * max(1.0, float(np.max(np.abs(E))))
-    iso = elastic = dyn = 0.0
-    for (a, b), w in d.level_weights.items():
-        w = num(w)
-        if a != b:
-            dyn += (pop[a] - pop[b]) * w / (E[b] - E[a] - z)
-        if a == b or abs(E[b] - E[a]) <= close:
-            elastic += pop[a] * w
-        else:
-            iso += (pop[a] - pop[b]) * w / (E[b] - E[a])
-    mA = sum(pop[a] * num(v) for a, v in d.expect_A.items())
-    mB = sum(pop[a] * num(v) for a, v in d.expect_B.items())
-    energies = sorted(e for e, k in zip(E, g) for _ in range(k))
-    return iso + (elastic - mA * mB) / T, iso, dyn, energies
 
 
 def test_lattice_operations_of_a_hubbard_ring_commute_with_its_matrix():

@@ -21,6 +21,8 @@ from symresp.models import System
 from symresp.response import derive
 from symresp.spectrum import solve
 
+from .._pieces import derived_sums
+
 from ..conftest import assert_close
 from ..strategies import spin_matrices
 
@@ -68,28 +70,7 @@ def _ring_matrices(N: int, spin: Fraction, p: dict, *, second=False, anisotropy=
 
 def _numbers(d, p: dict, T: float, z: complex) -> tuple[complex, complex, complex]:
     """Isothermal, isolated and chi(z) summed numerically from the derivation's exact pieces."""
-    pt = {s: sp.Float(p[s.name], 30) for s in d.system.parameters}
-
-    def num(e):
-        return complex(sp.N(sp.sympify(e).subs(pt), 20))
-
-    E = np.array([num(lv.energy).real for lv in d.levels])
-    g = np.array([lv.degeneracy for lv in d.levels])
-    x = np.exp(-(E - E.min()) / T)
-    pop = x / np.sum(g * x)
-    close = 1e-9 * max(1.0, float(np.max(np.abs(E))))
-    iso = elastic = dyn = 0.0
-    for (a, b), w in d.level_weights.items():
-        w = num(w)
-        if a != b:
-            dyn += (pop[a] - pop[b]) * w / (E[b] - E[a] - z)
-        if a == b or abs(E[b] - E[a]) <= close:
-            elastic += pop[a] * w
-        else:
-            iso += (pop[a] - pop[b]) * w / (E[b] - E[a])
-    mA = sum(pop[a] * num(v) for a, v in d.expect_A.items())
-    mB = sum(pop[a] * num(v) for a, v in d.expect_B.items())
-    return iso + (elastic - mA * mB) / T, iso, dyn
+    return derived_sums(d, p, T, z)[:3]
 
 
 def _check(N, spin, A_of, A_num, p, T, **kw):

@@ -1,23 +1,33 @@
-r"""Numbers from derived formulas: a tree-walking evaluator (layer: cases).
+r"""Numbers from derived formulas: every way symresp evaluates an expression (layer: response).
 
-Owns :func:`evaluate_precise` (mpmath, for verification) and :func:`evaluate_arrays` (numpy,
-for curves). Imports sympy, numpy, mpmath, :mod:`symresp.errors`, :mod:`symresp.numeric` and
-:mod:`symresp.spectrum`.
+Four routes, one module:
 
-Derived expressions are walked node by node; no code is generated or executed. Each distinct
-sub-expression is evaluated once per call (sympy shares equal sub-trees). Implicit levels
-(``CRootOf`` of polynomials with rational coefficients) are exact constants and are evaluated
-with sympy to the working precision; parametric ones (``LevelRoot``) are found at every point
-(mpmath ``polyroots`` in the precise evaluator, batched companion matrices with numpy).
+* :func:`evaluate_exact` substitutes exact numbers and lets sympy evaluate to ``digits``
+  correct digits (adaptive precision: safe next to cancellations; slow). For single values
+  asked through the API.
+* :func:`evaluate_mp` does the same into an mpmath number at a given binary precision (the
+  checks keep working in mpmath).
+* :func:`evaluate_precise` and :func:`evaluate_arrays` walk the expression tree node by node,
+  in fixed ``digits``-digit mpmath arithmetic or with numpy arrays (broadcast); no code is
+  generated or executed, each shared sub-expression is evaluated once. For verification
+  points and curves.
+* :func:`compile_expression` prints a symresp-built expression to a Python function with
+  ``sympy.lambdify`` (never user text), for the many evaluations of the consistency checks.
 
-The precise evaluator works in a private mpmath context, so no global precision setting is
-touched.
+Implicit levels: ``CRootOf`` of rational polynomials are exact constants, evaluated once to the
+working precision; parametric ones (``LevelRoot``) are solved at every point (mpmath
+``polyroots``-style root finding, batched companion matrices with numpy).
+
+Imports sympy, numpy, mpmath, :mod:`symresp.errors`, :mod:`symresp.numeric` and
+:mod:`symresp.spectrum`. The precise evaluator works in a private mpmath context, so no global
+precision setting is touched.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 
+import mpmath as mp
 import numpy as np
 import sympy as sp
 from mpmath.ctx_mp import MPContext
@@ -26,20 +36,73 @@ from ..errors import InputError
 from ..numeric import real_roots
 from ..spectrum import LevelRoot, real_root
 
-__all__ = ["evaluate_precise", "evaluate_arrays", "PRECISE_DIGITS"]
+__all__ = ["evaluate_exact", "evaluate_mp", "to_mp", "evaluate_precise", "evaluate_arrays",
+           "compile_expression", "PRECISE_DIGITS", "PREC_BITS"]
 
-#: Decimal digits of the precise evaluator.
+#: Decimal digits of the precise evaluators.
 PRECISE_DIGITS = 30
+#: Binary precision of the mpmath evaluations (a guard of 10 digits over PRECISE_DIGITS).
+PREC_BITS = int((PRECISE_DIGITS + 10) * 3.33)
 
 
-def evaluate_precise(expr: sp.Expr, values: Mapping[sp.Symbol, complex | float],
-                     *, digits: int = PRECISE_DIGITS) -> complex:
-    """Value of ``expr`` at ``values`` (a number per free symbol), in ``digits``-digit arithmetic.
+def _exact_roots(expr: sp.Expr, digits: int) -> sp.Expr:
+    """Each ``CRootOf`` replaced by a float of ``digits`` digits (it would isolate its root
+    again on every evaluation)."""
+    roots = expr.atoms(sp.CRootOf)
+    return expr.xreplace({r: r.evalf(digits) for r in roots}) if roots else expr
+
+
+def _substitute(expr: object, point: Mapping[sp.Symbol, sp.Expr], where: str) -> sp.Expr:
+    value = expr if isinstance(expr, sp.Basic) else sp.Integer(expr)
+    if value.free_symbols:
+        value = value.xreplace(dict(point))
+    if value.free_symbols:
+        names = ", ".join(sorted(map(str, value.free_symbols)))
+        raise InputError(f"{where}: no value for {names}")
+    return value
+
+
+def evaluate_exact(expr: sp.Expr, point: Mapping[sp.Symbol, sp.Expr], *,
+                   digits: int = PRECISE_DIGITS, where: str = "numeric evaluation") -> complex:
+    """Value of ``expr`` at exact numbers ``point``, correct to ``digits`` digits (sympy).
 
     Examples
     --------
     >>> import sympy as sp
-    >>> from symresp.cases import evaluate_precise
+    >>> from symresp.response import evaluate_exact
+    >>> from symresp.conventions import beta
+    >>> J = sp.Symbol("J", positive=True)
+    >>> evaluate_exact(2*beta/(3 + sp.exp(beta*J)), {beta: 1, J: 0})
+    (0.5+0j)
+    """
+    value = _substitute(expr, point, where)
+    return complex(sp.N(_exact_roots(value, digits + 20), digits))
+
+
+def to_mp(value: sp.Expr, where: str = "value", *, prec: int = PREC_BITS) -> mp.mpc:
+    """An exact sympy number (possibly with ``CRootOf``) as an mpmath complex number."""
+    try:
+        out = value._to_mpmath(prec)
+    except (AttributeError, TypeError, ValueError) as err:
+        raise InputError(f"{where}: {value} could not be evaluated to a number ({err})") from None
+    return mp.mpc(out)
+
+
+def evaluate_mp(expr: sp.Expr, point: Mapping[sp.Symbol, sp.Expr], where: str, *,
+                prec: int = PREC_BITS) -> mp.mpc:
+    """Value of ``expr`` at exact numbers ``point`` as an mpmath number of ``prec`` bits."""
+    return to_mp(_substitute(expr, point, where), where, prec=prec)
+
+
+def evaluate_precise(expr: sp.Expr, values: Mapping[sp.Symbol, complex | float],
+                     *, digits: int = PRECISE_DIGITS) -> complex:
+    """Value of ``expr`` at ``values`` (a number per free symbol: Python or exact sympy), in
+    ``digits``-digit arithmetic.
+
+    Examples
+    --------
+    >>> import sympy as sp
+    >>> from symresp.response import evaluate_precise
     >>> from symresp.conventions import beta
     >>> J = sp.Symbol("J", positive=True)
     >>> round(evaluate_precise(2*beta/(3 + sp.exp(beta*J)), {beta: 1.0, J: 0.0}).real, 12)
@@ -47,10 +110,11 @@ def evaluate_precise(expr: sp.Expr, values: Mapping[sp.Symbol, complex | float],
     """
     ctx = MPContext()
     ctx.dps = digits
-    env = {k: ctx.mpmathify(complex(v)) if complex(v).imag else ctx.mpf(float(complex(v).real))
+    backend = _mp_backend(ctx, digits)
+    env = {k: backend.number(v) if isinstance(v, sp.Basic) else
+           ctx.mpmathify(complex(v)) if complex(v).imag else ctx.mpf(float(complex(v).real))
            for k, v in values.items()}
-    walker = _Walker(_mp_backend(ctx, digits), env)
-    return complex(walker.value_of(_as_basic(expr)))
+    return complex(_Walker(backend, env).value_of(_as_basic(expr)))
 
 
 def evaluate_arrays(expr: sp.Expr, values: Mapping[sp.Symbol, object]) -> np.ndarray:
@@ -61,7 +125,7 @@ def evaluate_arrays(expr: sp.Expr, values: Mapping[sp.Symbol, object]) -> np.nda
     Examples
     --------
     >>> import numpy as np
-    >>> from symresp.cases import evaluate_arrays
+    >>> from symresp.response import evaluate_arrays
     >>> from symresp.conventions import beta
     >>> evaluate_arrays(beta/4, {beta: np.array([1.0, 2.0])}).real.tolist()
     [0.25, 0.5]
@@ -198,3 +262,34 @@ class _Walker:
             return b.number(node)
         raise InputError(f"numeric evaluation: cannot evaluate {node.func.__name__} "
                          f"(in {sp.sstr(node)[:60]})")
+
+
+def _level_root_mp(k, *coeffs):
+    """k-th smallest real root of a parametric characteristic factor, in mpmath."""
+    return real_root(k, coeffs, mp, extra=2 * mp.mp.prec)
+
+
+def _level_root_np(k, *coeffs):
+    """The same with numpy arrays of coefficients."""
+    return real_roots(coeffs)[..., int(k)]
+
+
+def compile_expression(expr: sp.Expr, args: Sequence[sp.Symbol], backend: str = "mpmath", *,
+                       digits: int = PRECISE_DIGITS + 10) -> Callable:
+    """A fast numeric function of ``args`` for a symresp-produced expression.
+
+    ``sympy.lambdify`` prints the expression tree to code; it is only ever given expressions
+    built by symresp itself (never user text). Implicit roots with rational coefficients become
+    ``digits``-digit constants; parametric ones (``LevelRoot``) are solved at each call.
+
+    Examples
+    --------
+    >>> import sympy as sp
+    >>> from symresp.response import compile_expression
+    >>> x = sp.Symbol("x")
+    >>> float(compile_expression(x**2 + 1, [x])(2))
+    5.0
+    """
+    e = expr if isinstance(expr, sp.Basic) else sp.Integer(expr)
+    roots = {"LevelRoot": _level_root_mp if backend == "mpmath" else _level_root_np}
+    return sp.lambdify(tuple(args), _exact_roots(e, digits), modules=[roots, backend])
