@@ -432,10 +432,18 @@ def derive(system: System, A: Operator, B: Operator, *, convention: Convention =
     W = spec.weights(As, Bs, clock)
     levels, part_level = _group_levels(spec)
     lw: dict[tuple[int, int], sp.Expr] = {}
+    count: dict[tuple[int, int], int] = {}
     for (pa, pb), w in W.items():
         key = (part_level[pa], part_level[pb])
         lw[key] = lw.get(key, sp.Integer(0)) + w
-    lw = {k: (clean(v) if not (levels[k[0]].implicit or levels[k[1]].implicit) else v)
+        count[key] = count.get(key, 0) + 1
+    # A weight from a single pair of parts is already in the engine's tidy form (factored
+    # coefficients of the block's square roots); only sums over merged parts are cleaned.
+    # Cleaning a single weight again rationalises and factors it as a whole, which costs
+    # seconds per weight between two blocks with different square roots (a qubit and a
+    # cavity: minutes at cutoff 40) and shortens nothing.
+    lw = {k: (clean(v) if count[k] > 1 and not (levels[k[0]].implicit or levels[k[1]].implicit)
+              else v)
           for k, v in lw.items()}
     lw = {k: v for k, v in lw.items() if v != 0}
 
