@@ -270,15 +270,20 @@ class _Traces:
             Ys = [Pb.U] + ([Pb.V] if Pb.V is not None else [])
             T = [[tidy(sp.expand((X * self.A * Y * self.B).trace())) for Y in Ys] for X in Xs]
             self.memo[key] = T
-        out = T[0][0]
+        rational = T[0][0]
+        out = sp.Integer(0)
         if Pa.V is not None:
             out += Pa.sign * Pa.rho * T[1][0]
         if Pb.V is not None:
-            out += Pb.sign * Pb.rho * T[0][1]
-            if Pa.V is not None:
-                rr = Pa.rho * Pb.rho
-                out += Pa.sign * Pb.sign * (rr if Pa.rho != Pb.rho else sp.expand(Pa.rho**2)) * T[1][1]
-        return out
+            if Pa.V is not None and Pa.rho == Pb.rho:
+                # one radical: rho^2 = D joins the rational part, the cross terms add up
+                rational = tidy(rational + Pa.sign * Pb.sign * sp.expand(Pa.rho**2) * T[1][1])
+                out = Pa.rho * tidy(Pa.sign * T[1][0] + Pb.sign * T[0][1])
+            else:
+                out += Pb.sign * Pb.rho * T[0][1]
+                if Pa.V is not None:
+                    out += Pa.sign * Pb.sign * Pa.rho * Pb.rho * T[1][1]
+        return rational + out
 
     def single(self, Pa: Projector) -> sp.Expr:
         key = ("e", Pa.factor)
