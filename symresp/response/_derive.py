@@ -492,7 +492,8 @@ def derive(system: System, A: Operator, B: Operator, *, convention: Convention =
         spec = solve(system, clock=clock, max_symbolic_block=budget.max_symbolic_block,
                      max_block=budget.max_block, symmetry=symmetry)
     basis = spec.structure.basis
-    As, Bs = sparse_form(A, basis), sparse_form(B, basis)
+    As = sparse_form(A, basis)
+    Bs = As if B == A else sparse_form(B, basis)
     ladder = isinstance(spec, LadderSpectrum)
     W = spec.operator_weights(A, B, As, Bs, clock) if ladder else spec.weights(As, Bs, clock)
     levels, part_level = _group_levels(spec)

@@ -44,7 +44,8 @@ from ..models import Clock, System
 from ._blocks import Block, BlockStructure, decompose
 from ._solve import BlockSolution, Factor, Part, Spectrum
 
-__all__ = ["Family", "LadderSpectrum", "solve_ladder", "MIN_MEMBERS", "MAX_LADDER_BLOCK"]
+__all__ = ["Family", "LadderSpectrum", "WeightTable", "solve_ladder", "MIN_MEMBERS",
+           "MAX_LADDER_BLOCK"]
 
 #: Fewest members for which a ladder is solved generically.
 MIN_MEMBERS = 4
@@ -298,6 +299,21 @@ class _Traces:
         return out
 
 
+@dataclass(frozen=True, slots=True, eq=False)
+class WeightTable:
+    """Weights (or expectations) of a ladder spectrum, in the compact form emitters use.
+
+    ``generic[(f1, f2, delta)][(ra, rb)]`` is a weight in the offset symbol ``nu`` between
+    root ra of ladder f1 at offset nu and root rb of ladder f2 at offset nu + delta;
+    ``members[(f1, f2, delta)]`` lists the (block, block, offset nu) it applies to;
+    ``explicit[(part a, part b)]`` holds the weights of all other pairs of blocks.
+    """
+
+    generic: dict
+    members: dict
+    explicit: dict
+
+
 # ----------------------------------------------------------------------------- the spectrum
 @dataclass(frozen=True, slots=True, eq=False)
 class LadderSpectrum(Spectrum):
@@ -331,11 +347,21 @@ class LadderSpectrum(Spectrum):
             self._cache[key] = tuple(P.at(sub) for P in self.families[fam_off[0]].eigen.projectors)
         return self._cache[key]
 
-    def operator_weights(self, A: Operator, B: Operator, As: SparseForm, Bs: SparseForm,
-                         clock: Clock | None = None) -> dict[tuple[int, int], sp.Expr]:
-        r"""Exact :math:`\mathrm{Tr}(P_a A P_b B)` for every pair of parts with a non-zero value."""
+    def part_of(self, sol_index: int, root: int) -> int:
+        """Index in ``parts`` of the root-th distinct root of a block."""
+        return self.index[(sol_index, *self._locate(sol_index, root))]
+
+    def weight_table(self, A: Operator, B: Operator, As: SparseForm, Bs: SparseForm,
+                     clock: Clock | None = None) -> WeightTable:
+        r"""Weights :math:`\mathrm{Tr}(P_a A P_b B)`: generic per (ladder, ladder, offset
+        difference) with the member pairs they apply to, explicit for the other blocks."""
+        key = ("table", A, B)
+        if key in self._cache:
+            return self._cache[key]
         Asp, Bsp = self.split(As), self.split(Bs)
-        out: dict[tuple[int, int], sp.Expr] = {}
+        generic: dict[tuple[int, int, int], dict[tuple[int, int], sp.Expr]] = {}
+        members: dict[tuple[int, int, int], list[tuple[int, int, int]]] = {}
+        explicit: dict[tuple[int, int], sp.Expr] = {}
         for (bi, bj), a_blk in sorted(Asp.items()):
             b_blk = Bsp.get((bj, bi))
             if not b_blk:
@@ -344,18 +370,10 @@ class LadderSpectrum(Spectrum):
                 clock.check("ladder weights", f"blocks {bi} -> {bj}")
             mi, mj = self.member.get(bi), self.member.get(bj)
             if mi is not None and mj is not None:
-                delta = mj[1] - mi[1]
-                key = ("w", mi[0], mj[0], delta, A, B)
-                generic = self._cache.get(key)
-                if generic is None:
-                    generic = self._generic_weights(mi[0], mj[0], delta, A, B)
-                    self._cache[key] = generic
-                sub = {self.nu: mi[1]}
-                for (ra, rb), w in generic.items():
-                    v = w.xreplace(sub)
-                    if v != 0:
-                        out[(self.index[(bi, *self._locate(bi, ra))],
-                             self.index[(bj, *self._locate(bj, rb))])] = v
+                k = (mi[0], mj[0], mj[1] - mi[1])
+                if k not in generic:
+                    generic[k] = self._generic_weights(*k, A, B)
+                members.setdefault(k, []).append((bi, bj, mi[1]))
                 continue
             ni, nj = self.solutions[bi].block.size, self.solutions[bj].block.size
             tr = _Traces(sp.Matrix(sp.SparseMatrix(ni, nj, a_blk)),
@@ -364,39 +382,79 @@ class LadderSpectrum(Spectrum):
                 for rb, Pb in enumerate(self.projectors(bj)):
                     w = tr.pair(Pa, Pb)
                     if w != 0:
-                        out[(self.index[(bi, *self._locate(bi, ra))],
-                             self.index[(bj, *self._locate(bj, rb))])] = w
+                        explicit[(self.part_of(bi, ra), self.part_of(bj, rb))] = w
+        out = WeightTable(generic, {k: tuple(v) for k, v in members.items()}, explicit)
+        self._cache[key] = out
         return out
 
-    def operator_expectations(self, A: Operator, As: SparseForm) -> dict[int, sp.Expr]:
-        r"""Exact :math:`\mathrm{Tr}(P_a A)` for every part a with a non-zero value."""
+    def operator_weights(self, A: Operator, B: Operator, As: SparseForm, Bs: SparseForm,
+                         clock: Clock | None = None) -> dict[tuple[int, int], sp.Expr]:
+        r"""Exact :math:`\mathrm{Tr}(P_a A P_b B)` for every pair of parts with a non-zero value."""
+        table = self.weight_table(A, B, As, Bs, clock)
+        out = dict(table.explicit)
+        # With A = B, Tr(P_b A P_a A) = Tr(P_a A P_b A) (cyclic trace): each unordered pair of
+        # members is substituted once (substitution is most of the cost at large cutoffs).
+        mirror = A == B
+        for k, entries in table.generic.items():
+            for bi, bj, offset in table.members[k]:
+                if clock:
+                    clock.check("ladder weights", f"blocks {bi} -> {bj}")
+                sub = {self.nu: offset}
+                for (ra, rb), w in entries.items():
+                    pa, pb = self.part_of(bi, ra), self.part_of(bj, rb)
+                    if mirror and (pb, pa) in out:
+                        out[(pa, pb)] = out[(pb, pa)]
+                        continue
+                    v = w.xreplace(sub)
+                    if v != 0:
+                        out[(pa, pb)] = v
+        return out
+
+    def expectation_table(self, A: Operator, As: SparseForm) -> WeightTable:
+        r""":math:`\mathrm{Tr}(P_a A)`: generic per ladder (key (f, f, 0), entries (ra, ra))
+        with its members, explicit for the other blocks (keys (part, part))."""
+        key = ("expectations", A)
+        if key in self._cache:
+            return self._cache[key]
         Asp = self.split(As)
-        out: dict[int, sp.Expr] = {}
+        generic: dict = {}
+        members: dict = {}
+        explicit: dict = {}
         for (bi, bj), a_blk in Asp.items():
             if bi != bj:
                 continue
             mi = self.member.get(bi)
             if mi is not None:
-                key = ("e", mi[0], A)
-                generic = self._cache.get(key)
-                if generic is None:
+                k = (mi[0], mi[0], 0)
+                if k not in generic:
                     F = self.families[mi[0]]
                     states = [(f, self.nu + r) for f, r in zip(F.finite, F.relative)]
                     Ag = generic_block(A, states, states, self.structure.basis, self.boson)
                     tr = _Traces(Ag, None)
-                    generic = {ra: tr.single(P) for ra, P in enumerate(F.eigen.projectors)}
-                    self._cache[key] = generic
-                for ra, v in generic.items():
-                    v = v.xreplace({self.nu: mi[1]})
-                    if v != 0:
-                        out[self.index[(bi, *self._locate(bi, ra))]] = v
+                    generic[k] = {(ra, ra): v for ra, P in enumerate(F.eigen.projectors)
+                                  if (v := tr.single(P)) != 0}
+                members.setdefault(k, []).append((bi, bi, mi[1]))
                 continue
             n = self.solutions[bi].block.size
             tr = _Traces(sp.Matrix(sp.SparseMatrix(n, n, a_blk)), None)
             for ra, P in enumerate(self.projectors(bi)):
                 v = tr.single(P)
                 if v != 0:
-                    out[self.index[(bi, *self._locate(bi, ra))]] = v
+                    explicit[(self.part_of(bi, ra), self.part_of(bi, ra))] = v
+        out = WeightTable(generic, {k: tuple(v) for k, v in members.items()}, explicit)
+        self._cache[key] = out
+        return out
+
+    def operator_expectations(self, A: Operator, As: SparseForm) -> dict[int, sp.Expr]:
+        r"""Exact :math:`\mathrm{Tr}(P_a A)` for every part a with a non-zero value."""
+        table = self.expectation_table(A, As)
+        out = {pa: v for (pa, _), v in table.explicit.items()}
+        for k, entries in table.generic.items():
+            for bi, _, offset in table.members[k]:
+                for (ra, _), v in entries.items():
+                    v = v.xreplace({self.nu: offset})
+                    if v != 0:
+                        out[self.part_of(bi, ra)] = v
         return out
 
     def _locate(self, sol_index: int, root: int) -> tuple[int, int]:
