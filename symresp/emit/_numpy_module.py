@@ -23,12 +23,14 @@ import sympy as sp
 
 from ..algebra import describe
 from ..errors import InputError
-from ..response import Derivation
+from ..response import Derivation, MotionDerivation
+from ..spectrum import LadderSpectrum
 from ._correlation import (CORRELATION_RUNTIME, correlation_glue, correlation_program,
                            correlation_wrapper)
 from ._eigen import eigen_plan
 from ._inplace import inplace_body
 from ._plan import Plan, build_plan, fingerprint
+from ._pole_module import ladder_module_source, motion_module_source
 from ._printers import ArrayPrinter, ScalarPrinter
 from ._program import (Program, energies_program, jacobian_program, omega_program,
                        params_program, poles_program, spectral_program, static_program,
@@ -442,11 +444,16 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     --------
     compile_module, numpy_functions, latex_document
     """
-    if not isinstance(derivation, Derivation):
+    if not isinstance(derivation, (Derivation, MotionDerivation)):
         raise InputError(f"numpy_module_source: derivation={derivation!r} must be a "
                          "symresp.response.Derivation (use response.derivation)")
     if name is not None and not isinstance(name, str):
         raise InputError(f"numpy_module_source: name={name!r} must be a string")
+    # Other routes have their own writers with the same public functions (_pole_module).
+    if isinstance(derivation, MotionDerivation):
+        return motion_module_source(derivation, name=name, version=symresp_version())
+    if isinstance(derivation.spectrum, LadderSpectrum):
+        return ladder_module_source(derivation, name=name, version=symresp_version())
     exact = build_plan(derivation)
     # Value functions diagonalise semi-closed blocks numerically (stable where their levels
     # nearly coincide); the Jacobian differentiates the exact weights through the roots.

@@ -33,13 +33,19 @@ from ..algebra import Operator, sparse_form
 from ..conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
 from ..errors import BudgetExceeded, InputError
 from ..models import Budget, Clock, System, current_clock
-from ..spectrum import LevelRoot, Spectrum, clean, is_zero_number, solve
+from ..spectrum import (LadderSpectrum, LevelRoot, Spectrum, clean, is_zero_number, solve,
+                        solve_ladder)
 from ._correlation import CorrelationKind, correlation_lines
 from ._present import boltzmann_form, hyperbolic_ratio, merge_exponentials
 
 __all__ = ["Level", "Transition", "Derivation", "derive", "StaticKind", "present"]
 
 StaticKind = Literal["isothermal", "isolated"]
+
+#: From this many levels on, static and dynamic susceptibilities are written as one sum over
+#: the common Z' (each term of a small model is presented with its own Z', which reads
+#: better but repeats Z' in every term: quadratic size in the number of levels).
+COMPACT_LEVELS = 24
 
 
 @dataclass(frozen=True, slots=True)
@@ -198,13 +204,26 @@ class Derivation:
     # ------------------------------------------------------------ thermodynamics
     def boltzmann(self, a: int) -> sp.Expr:
         r""":math:`x_a = e^{-\beta (E_a - E_{\rm ref})}` per state of level a."""
-        dE = self.levels[a].energy - self.levels[self.reference].energy
-        dE = sp.expand(dE) if not self.levels[a].implicit else dE
-        return sp.exp(-beta * dE)
+        # Remembered per level: building exp() of a surd-laden exponent costs about 10 ms, and
+        # every transition asks for two of them.
+        memo = self._memo.setdefault("boltzmann", {})
+        x = memo.get(a)
+        if x is None:
+            dE = self.levels[a].energy - self.levels[self.reference].energy
+            dE = sp.expand(dE) if not self.levels[a].implicit else dE
+            # exp() of a real exponent never simplifies (no log, no multiple of i pi), but its
+            # automatic evaluation asks dozens of assumptions of the exponent (25 ms each with
+            # square roots): skipped, with the same expression as the result.
+            x = memo[a] = sp.Integer(1) if dE == 0 else sp.exp(-beta * dE, evaluate=False)
+        return x
 
     def reduced_partition(self) -> sp.Expr:
         r""":math:`Z' = Z\, e^{\beta E_{\rm ref}} = \sum_a d_a x_a`."""
-        return sum((lv.degeneracy * self.boltzmann(a) for a, lv in enumerate(self.levels)), sp.Integer(0))
+        memo = self._memo.get("reduced_partition")
+        if memo is None:
+            memo = sp.Add(*[lv.degeneracy * self.boltzmann(a) for a, lv in enumerate(self.levels)])
+            self._memo["reduced_partition"] = memo
+        return memo
 
     def partition(self) -> sp.Expr:
         r"""Partition function :math:`Z = \sum_a d_a e^{-\beta E_a}`."""
@@ -213,7 +232,7 @@ class Derivation:
             return memo
         Eref = self.levels[self.reference].energy
         Zr = self.reduced_partition()
-        nice = None if Zr.has(sp.CRootOf, LevelRoot) else _within_share(
+        nice = None if (Zr.has(sp.CRootOf, LevelRoot) or self.is_large()) else _within_share(
             lambda: boltzmann_form(Zr), None)
         out = sp.exp(-beta * Eref) * (Zr if nice is None else nice)
         out = out if nice is None else merge_exponentials(out)
@@ -237,13 +256,15 @@ class Derivation:
         if memo is not None:
             return memo
         out = []
-        Zr = self.reduced_partition()
+        # 1/Z' built once: dividing by a long sum again for every transition re-derives the
+        # assumptions of its reciprocal each time (seconds for a cavity at cutoff 60).
+        inv = 1 / self.reduced_partition()
         for (a, b), W in sorted(self.level_weights.items()):
             if a == b:
                 continue
             Om = self.levels[b].energy - self.levels[a].energy
             Om = sp.expand(Om) if not (self.levels[a].implicit or self.levels[b].implicit) else Om
-            w = (self.boltzmann(a) - self.boltzmann(b)) * W / Zr
+            w = (self.boltzmann(a) - self.boltzmann(b)) * W * inv
             out.append(Transition(a, b, Om, W, w))
         res = tuple(out)
         self._memo["transitions"] = res
@@ -265,8 +286,23 @@ class Derivation:
                 order.append(key)
             merged[key] += s * sig * tr.weight
         pt = _sample_point(self.system.parameters)
-        order.sort(key=lambda k: (complex(sp.N(k.subs(pt), 15)).real, sp.default_sort_key(k)))
+        order.sort(key=lambda k: (complex(k.xreplace(pt).evalf(15)).real, sp.default_sort_key(k)))
+        if self.is_large():
+            return [(k, merged[k]) for k in order]
         return [(k, present(merged[k])) for k in order]
+
+    def is_large(self) -> bool:
+        """True from COMPACT_LEVELS levels on: sums are then written over the common Z'."""
+        return len(self.levels) > COMPACT_LEVELS
+
+    def _numerators(self) -> list[tuple[Transition, sp.Expr]]:
+        """(transition, (x_a - x_b) W_ab): the weights times Z'."""
+        memo = self._memo.get("numerators")
+        if memo is None:
+            memo = [(tr, (self.boltzmann(tr.lower) - self.boltzmann(tr.upper)) * tr.matrix_weight)
+                    for tr in self.transitions()]
+            self._memo["numerators"] = memo
+        return memo
 
     # ------------------------------------------------------------ static
     def static(self, kind: StaticKind = "isothermal") -> sp.Expr:
@@ -280,16 +316,26 @@ class Derivation:
         iso = self._isolated_raw()
         if kind == "isolated":
             val = iso
+        elif self.is_large():
+            # Z' once per sum, not once per term: the expression grows like the number of
+            # levels, not its square (a cavity at cutoff 60 gave 1 MB of text otherwise).
+            Zr = self.reduced_partition()
+            diag = sp.Add(*[self.boltzmann(a) * W for (a, b), W in self.level_weights.items() if a == b])
+            mA = sp.Add(*[self.boltzmann(a) * v for a, v in self.expect_A.items()])
+            mB = sp.Add(*[self.boltzmann(a) * v for a, v in self.expect_B.items()])
+            val = iso + beta * (diag / Zr - mA * mB / Zr**2)
         else:
             Zr = self.reduced_partition()
             diag = sum((self.boltzmann(a) * W for (a, b), W in self.level_weights.items() if a == b),
                        sp.Integer(0)) / Zr
             val = iso + beta * (diag - self.expectation("A") * self.expectation("B"))
-        out = present(self.convention.sign * val)
+        out = self.convention.sign * val if self.is_large() else present(self.convention.sign * val)
         self._memo[key] = out
         return out
 
     def _isolated_raw(self) -> sp.Expr:
+        if self.is_large():
+            return sp.Add(*[n / tr.frequency for tr, n in self._numerators()]) / self.reduced_partition()
         terms = []
         for tr in self.transitions():
             terms.append(tr.weight / tr.frequency)
@@ -340,19 +386,27 @@ class Derivation:
         """
         s, sig = self.convention.sign, self.convention.frequency_sign
         w_ = sig * var
+        if self.is_large():
+            paired, single = self._merged_pairs(numerators=True)
+            terms = [2 * w * Om / (Om**2 - w_**2) for Om, w in paired]
+            terms += [w / (Om - w_) for Om, w in single]
+            return s * sp.Add(*terms) / self.reduced_partition()
         paired, single = self._merged_pairs()
         terms = [present(2 * w) * Om / (Om**2 - w_**2) for Om, w in paired]
         terms += [present(w) / (Om - w_) for Om, w in single]
         return s * sp.Add(*terms)
 
-    def _merged_pairs(self):
-        """Paired and single poles with weights summed over equal frequencies."""
+    def _merged_pairs(self, numerators: bool = False):
+        """Paired and single poles with weights summed over equal frequencies (times Z' with
+        ``numerators``)."""
         paired, single = self._pairs()
+        num = {id(tr): n for tr, n in self._numerators()} if numerators else {}
 
         def merge(trs):
             acc: dict[sp.Expr, sp.Expr] = {}
             for tr in trs:
-                acc[tr.frequency] = acc.get(tr.frequency, sp.Integer(0)) + tr.weight
+                w = num[id(tr)] if numerators else tr.weight
+                acc[tr.frequency] = acc.get(tr.frequency, sp.Integer(0)) + w
             return list(acc.items())
 
         return merge(paired), merge(single)
@@ -365,11 +419,15 @@ class Derivation:
                 "time: the advanced function vanishes for t > 0; derive with the retarded "
                 "convention for chi(t)"
             )
-        s, sig = self.convention.sign, self.convention.frequency_sign
+        s = self.convention.sign            # chi(t) does not depend on the Fourier sign
+        if self.is_large():
+            paired, single = self._merged_pairs(numerators=True)
+            terms = [2 * w * sp.sin(Om * var) for Om, w in paired]
+            terms += [sp.I * w * sp.exp(-sp.I * Om * var) for Om, w in single]
+            return s * sp.Add(*terms) / self.reduced_partition()
         paired, single = self._merged_pairs()
         terms = [present(2 * w) * sp.sin(Om * var) for Om, w in paired]
         terms += [sp.I * present(w) * sp.exp(-sp.I * Om * var) for Om, w in single]
-        del sig  # chi(t) does not depend on the Fourier sign
         return s * sp.Add(*terms)
 
     def matsubara(self, var: sp.Symbol = nu) -> sp.Expr:
@@ -379,6 +437,9 @@ class Derivation:
         this expression's limit (which is the isolated one).
         """
         s = self.convention.sign
+        if self.is_large():
+            return s * sp.Add(*[n / (tr.frequency - sp.I * var) for tr, n in self._numerators()]) \
+                / self.reduced_partition()
         return s * sp.Add(*[present(w) / (Om - sp.I * var) for Om, w in self._raw_poles()])
 
     def _raw_poles(self):
@@ -434,7 +495,8 @@ class Derivation:
 def _level_ranks(levels, params) -> dict[int, int]:
     """Rank of each level's energy at the presentation sample point (0 = lowest)."""
     pt = _sample_point(params)
-    vals = [complex(sp.N(lv.energy.subs(pt), 30)).real for lv in levels]
+    # xreplace + evalf: a third of the time of subs + N (hundreds of levels of a cavity model).
+    vals = [complex(lv.energy.xreplace(pt).evalf(30)).real for lv in levels]
     return {a: r for r, a in enumerate(sorted(range(len(vals)), key=lambda i: vals[i]))}
 
 
@@ -502,20 +564,34 @@ def derive(system: System, A: Operator, B: Operator, *, convention: Convention =
     with budget.start().running() as clock:
         clock.check("solving the model")
         system = system.with_sites(A.sites | B.sites)
-        spec = solve(system, clock=clock, max_symbolic_block=budget.max_symbolic_block,
-                     max_block=budget.max_block, symmetry=symmetry)
+        # A ladder (one boson mode, conserved excitation number) is solved once for all its
+        # blocks.
+        spec = solve_ladder(system, clock=clock) if symmetry else None
+        if spec is None:
+            spec = solve(system, clock=clock, max_symbolic_block=budget.max_symbolic_block,
+                         max_block=budget.max_block, symmetry=symmetry)
         basis = spec.structure.basis
-        As, Bs = sparse_form(A, basis), sparse_form(B, basis)
-        W = spec.weights(As, Bs, clock)
+        As = sparse_form(A, basis)
+        Bs = As if B == A else sparse_form(B, basis)
+        ladder = isinstance(spec, LadderSpectrum)
+        W = spec.operator_weights(A, B, As, Bs, clock) if ladder else spec.weights(As, Bs, clock)
         levels, part_level = _group_levels(spec)
         lw: dict[tuple[int, int], sp.Expr] = {}
+        count: dict[tuple[int, int], int] = {}
         for (pa, pb), w in W.items():
             key = (part_level[pa], part_level[pb])
             lw[key] = lw.get(key, sp.Integer(0)) + w
+            count[key] = count.get(key, 0) + 1
+        # A weight from a single pair of parts is already in the engine's tidy form (factored
+        # coefficients of the block's square roots); only sums over merged parts are cleaned.
+        # Cleaning a single weight again rationalises and factors it as a whole, which costs
+        # seconds per weight between two blocks with different square roots (a qubit and a
+        # cavity: minutes at cutoff 40) and shortens nothing.
         tidy: dict[tuple[int, int], sp.Expr] = {}
         for k, v in lw.items():
             clock.check("tidying the transition weights", f"levels {k[0]} -> {k[1]}")
-            v = clean(v) if not (levels[k[0]].implicit or levels[k[1]].implicit) else v
+            if count[k] > 1 and not (levels[k[0]].implicit or levels[k[1]].implicit):
+                v = clean(v)
             if v != 0:
                 tidy[k] = v
         lw = tidy
@@ -526,8 +602,12 @@ def derive(system: System, A: Operator, B: Operator, *, convention: Convention =
                 out[part_level[p]] = out.get(part_level[p], sp.Integer(0)) + v
             return {k: v for k, v in out.items() if sp.expand(v) != 0}
 
-        eA = level_expect(spec.expectations(As))
-        eB = level_expect(spec.expectations(Bs))
+        if ladder:
+            eA = level_expect(spec.operator_expectations(A, As))
+            eB = level_expect(spec.operator_expectations(B, Bs))
+        else:
+            eA = level_expect(spec.expectations(As))
+            eB = level_expect(spec.expectations(Bs))
         ranks = _level_ranks(levels, system.parameters)
         ref = min(ranks, key=ranks.__getitem__)
         return Derivation(system, A, B, convention, spec, tuple(levels), ref, lw, eA, eB, budget,

@@ -6,6 +6,7 @@ Imports sympy, python-flint, :mod:`symresp.errors`, :mod:`symresp.algebra`, :mod
 from ._roots import LevelRoot, real_root
 from ._blocks import Block, BlockStructure, QuantumNumber, decompose
 from ._solve import BlockSolution, Factor, Part, Spectrum, clean, is_zero_number, solve
+from ._ladder import LadderSpectrum, solve_ladder
 
 __all__ = ["LevelRoot", "real_root", "Block", "BlockStructure", "QuantumNumber", "decompose", "BlockSolution", "Factor",
-           "Part", "Spectrum", "clean", "is_zero_number", "solve"]
+           "Part", "Spectrum", "clean", "is_zero_number", "solve", "LadderSpectrum", "solve_ladder"]
