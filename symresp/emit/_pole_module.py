@@ -339,7 +339,7 @@ def ladder_module_source(d: Derivation, *, version: str, name: str | None = None
     for e in exprs:
         symbols |= sp.sympify(e).free_symbols - {nu}  # safe: sympy objects from a derivation
     safe, rename = _parameters(symbols)
-    nu_sym = sp.Symbol("nu", real=True)
+    nu_sym = sp.Symbol("ladder_n", real=True)  # the offset array of the generated code
     rename = dict(rename)
     rename[nu] = nu_sym
     P = len(safe)
@@ -374,13 +374,13 @@ def ladder_module_source(d: Derivation, *, version: str, name: str | None = None
             f"    _E = numpy.empty(({nparts},) + _shape)",
             f"    _dE = numpy.zeros(({P}, {nparts}) + _shape) if _jac else None"]
     for fi, F in enumerate(spec.families):
-        body.append(f"    nu = _NU{fi}.reshape((-1,) + _lead)")
+        body.append(f"    ladder_n = _NU{fi}.reshape((-1,) + _lead)")
         for r, root in enumerate(F.eigen.roots):
-            body.append(f"    _E[_PARTS{fi}_{r}] = {_code(root, rename)} + 0 * nu")
+            body.append(f"    _E[_PARTS{fi}_{r}] = {_code(root, rename)} + 0 * ladder_n")
             body.append("    if _jac:")
             for j, de in enumerate(deriv(root)):
                 if de != 0:
-                    body.append(f"        _dE[{j}, _PARTS{fi}_{r}] = {_code(de, {})} + 0 * nu")
+                    body.append(f"        _dE[{j}, _PARTS{fi}_{r}] = {_code(de, {})} + 0 * ladder_n")
     for k, part in enumerate(spec.parts):
         if k in ladder_roots:
             continue
@@ -401,16 +401,16 @@ def ladder_module_source(d: Derivation, *, version: str, name: str | None = None
             offs = [m[2] for m in mem]
             body_name = f"_{tag.upper()}NU{ki}"
             L.append(f"{body_name} = numpy.array({offs!r}, dtype=float)")
-            out.append(f"    nu = {body_name}.reshape((-1,) + _lead)")
+            out.append(f"    ladder_n = {body_name}.reshape((-1,) + _lead)")
             for (ra, rb), w in sorted(entries.items()):
                 ia = [spec.part_of(bi, ra) for bi, _, _ in mem]
                 ib = [spec.part_of(bj, rb) for _, bj, _ in mem]
                 L.append(f"_{tag.upper()}I{ki}_{ra}_{rb} = numpy.array({ia!r}, dtype=int)")
                 L.append(f"_{tag.upper()}J{ki}_{ra}_{rb} = numpy.array({ib!r}, dtype=int)")
                 ders = deriv(w)
-                dcode = "[" + ", ".join(f"({_code(x, {})}) + 0 * nu" for x in ders) + "]"
+                dcode = "[" + ", ".join(f"({_code(x, {})}) + 0 * ladder_n" for x in ders) + "]"
                 out.append(f"    _{tag}.append((_{tag.upper()}I{ki}_{ra}_{rb}, "
-                           f"_{tag.upper()}J{ki}_{ra}_{rb}, ({_code(w, rename)}) + 0 * nu, "
+                           f"_{tag.upper()}J{ki}_{ra}_{rb}, ({_code(w, rename)}) + 0 * ladder_n, "
                            f"{dcode} if _jac else None))")
         for (pa, pb), w in sorted(t.explicit.items()):
             ders = deriv(w)
@@ -474,7 +474,7 @@ def motion_module_source(d: MotionDerivation, *, version: str, name: str | None 
     for e in exprs:
         symbols |= sp.sympify(e).free_symbols - {beta}  # safe: sympy objects from a derivation
     safe, rename = _parameters(symbols)
-    bsym = sp.Symbol("beta", positive=True)
+    bsym = beta
     rename = dict(rename)
     rename[beta] = bsym
     real = not any(sp.sympify(e).has(sp.I) for e in exprs)  # safe: sympy objects

@@ -328,7 +328,7 @@ class LadderSpectrum(Spectrum):
     member: dict = field(default_factory=dict)          # solution index -> (family, offset)
     eigens: dict = field(default_factory=dict)          # solution index -> Eigen (concrete)
     boson: int = -1                                     # position of the boson site
-    nu: sp.Symbol = sp.Dummy("nu")
+    nu: sp.Symbol = sp.Dummy("n_offset")
     _cache: dict = field(default_factory=dict)
 
     def describe(self) -> str:
@@ -525,7 +525,7 @@ def solve_ladder(system: System, *, clock: Clock | None = None) -> LadderSpectru
     basis = structure.basis
     H = system.hamiltonian
     params = system.parameters
-    nu = sp.Dummy("nu", integer=True, nonnegative=True)
+    nu = sp.Dummy("n_offset", integer=True, nonnegative=True)
     families: list[Family] = []
     member_of: dict[int, tuple[int, int]] = {}
     for sig, members in _families(structure, boson):
