@@ -7,6 +7,7 @@ Imports sympy, :mod:`symresp.conventions`, :mod:`symresp.errors`, :mod:`symresp.
 
 from ._derive import Derivation, Level, StaticKind, Transition, derive, present
 from ._motion import Gibbs, MotionDerivation, PolePair, derive_motion
+from ._route import ROUTES, Route, Truncation, respond
 from ._numbers import (PREC_BITS, PRECISE_DIGITS, compile_expression, evaluate_arrays, evaluate_exact,
                        evaluate_mp, evaluate_precise, to_mp)
 from ._presentation import (DEFINITION_KINDS, PRESENTED_QUANTITIES, Definition, Formula, LevelRow,
@@ -18,7 +19,7 @@ from ._render import (GENERIC_FORMS, MAX_LINE, formula_lines, formula_text, leve
                       presentation_text, split_shared, transition_lines, where_lines, wrap)
 
 __all__ = ["Derivation", "Level", "Transition", "StaticKind", "derive", "present", "MotionDerivation",
-           "PolePair", "Gibbs", "derive_motion", "QUANTITIES", "QuantityInfo", "Quantity",
+           "PolePair", "Gibbs", "derive_motion", "respond", "Truncation", "Route", "ROUTES", "QUANTITIES", "QuantityInfo", "Quantity",
            "STATIC_KINDS", "CASE_QUANTITIES", "DEFAULT_CASE_QUANTITIES", "CHECKED_QUANTITIES",
            "check_quantity", "quantity_expression", "PRECISE_DIGITS", "PREC_BITS", "compile_expression",
            "evaluate_arrays", "evaluate_exact", "evaluate_mp", "evaluate_precise", "to_mp",

@@ -199,7 +199,18 @@ class Derivation:
     expect_A: dict                                  # a -> Tr(P_a A)
     expect_B: dict
     budget: Budget = Budget()                       # the limits of every later call on it
+    notes: tuple[str, ...] = ()                     # route notes (why another route was not used)
+    truncation: object = None                       # response._route.Truncation for boson cutoffs
     _memo: dict = field(default_factory=dict, compare=False, repr=False)
+
+    route = "lehmann"
+
+    def describe_route(self) -> str:
+        """One line: the route taken (exact diagonalisation), cutoff effects and notes."""
+        text = f"exact diagonalisation: Lehmann sums over {len(self.levels)} levels"
+        if self.truncation is not None:
+            text += "; " + self.truncation.describe()
+        return "; ".join([text, *self.notes])
 
     # ------------------------------------------------------------ thermodynamics
     def boltzmann(self, a: int) -> sp.Expr:

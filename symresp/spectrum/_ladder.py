@@ -45,7 +45,7 @@ from ._blocks import Block, BlockStructure, decompose
 from ._solve import BlockSolution, Factor, Part, Spectrum
 
 __all__ = ["Family", "LadderSpectrum", "WeightTable", "solve_ladder", "MIN_MEMBERS",
-           "MAX_LADDER_BLOCK"]
+           "MAX_LADDER_BLOCK", "edge_positions", "edge_weights"]
 
 #: Fewest members for which a ladder is solved generically.
 MIN_MEMBERS = 4
@@ -594,4 +594,61 @@ def solve_ladder(system: System, *, clock: Clock | None = None) -> LadderSpectru
     # Members keep the generic projectors (via their family) and their offsets.
     out = LadderSpectrum(structure, tuple(sols), tuple(parts), index, tuple(families), member,
                          eigens, boson, nu)
+    return out
+
+
+# ----------------------------------------------------------------------------- truncation
+def edge_positions(basis: Basis, ops) -> tuple[int, ...]:
+    """Basis positions from which one of ``ops`` leads above the cutoff of a boson mode.
+
+    A monomial leads above the cutoff from a state when its finite-site factors apply, its
+    annihilators find enough quanta, and the final occupation of some boson mode exceeds the
+    cutoff (the matrix element the truncated matrix drops).
+    """
+    bosons = [i for i, s in enumerate(basis.sites) if s.kind == "boson"]
+    if not bosons:
+        return ()
+    where = {s: i for i, s in enumerate(basis.sites)}
+    monos = [m for op in ops for m, _ in op.terms
+             if any(where.get(site) in bosons and key[1] > key[2] for site, key in m)]
+    out = []
+    for pos, state in enumerate(basis.states):
+        for mono in monos:
+            st = list(state)
+            ok = True
+            for site, key in reversed(mono):
+                i = where[site]
+                if site.kind == "boson":
+                    _, p, q = key
+                    if st[i] < q:
+                        ok = False
+                        break
+                    st[i] = st[i] - q + p
+                else:
+                    _, a, b = key
+                    if st[i] != b:
+                        ok = False
+                        break
+                    st[i] = a
+            if ok and any(st[i] > basis.sites[i].dim - 1 for i in bosons):
+                out.append(pos)
+                break
+    return tuple(out)
+
+
+def edge_weights(spec: Spectrum, positions: tuple[int, ...]) -> dict[int, sp.Expr]:
+    r""":math:`\mathrm{Tr}(P_a \Pi)` per part a for the projector :math:`\Pi` onto ``positions``."""
+    form = {(p, p): sp.Integer(1) for p in positions}
+    if not isinstance(spec, LadderSpectrum):
+        return spec.expectations(form)
+    out: dict[int, sp.Expr] = {}
+    for (bi, bj), blk in spec.split(form).items():
+        if bi != bj:
+            continue
+        for ra, P in enumerate(spec.projectors(bi)):
+            M = P.matrix()
+            v = sp.Add(*[M[i, i] * val for (i, _), val in blk.items()])
+            v = tidy(v) if not v.is_Number else v
+            if v != 0:
+                out[spec.part_of(bi, ra)] = v
     return out
