@@ -35,7 +35,7 @@ from typing import Literal
 
 import sympy as sp
 
-from ..algebra import Basis, Operator
+from ..algebra import Basis, Operator, exact_decimal
 from ..conventions import DEFAULT_CONVENTION, Convention, beta
 from ..errors import ClosedFormError, InputError
 from ..models import Budget, System
@@ -90,8 +90,8 @@ class Truncation:
         by_name = {p.name: p for p in d.system.parameters}
         values = {}
         for k, v in params.items():
-            values[by_name.get(k, k) if isinstance(k, str) else k] = sp.nsimplify(v)
-        values[beta] = 1 / sp.nsimplify(T)
+            values[by_name.get(k, k) if isinstance(k, str) else k] = exact_decimal(float(v))
+        values[beta] = 1 / exact_decimal(float(T))
         E = [complex(lv.energy.xreplace(values).evalf(30)).real for lv in d.levels]
         lo = min(E)
         x = [math.exp(-(e - lo) / T) for e in E]
