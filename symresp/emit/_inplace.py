@@ -59,8 +59,36 @@ class _Val:
     real: bool          # known real
 
 
-def _count(expr: sp.Expr, sym: sp.Symbol) -> int:
-    return sum(1 for node in sp.preorder_traversal(expr) if node == sym)
+def _counts(expr: sp.Expr) -> dict:
+    """How often each symbol occurs in ``expr`` (one pass over the tree)."""
+    out: dict = {}
+    for node in sp.preorder_traversal(expr):
+        if node.is_Symbol:
+            out[node] = out.get(node, 0) + 1
+    return out
+
+
+def _known_real(e: sp.Expr, real_names: set) -> bool | None:
+    """True when ``e`` is real by its structure alone: sums, products and integer powers of
+    numbers, real symbols and names known real; False for a non-real number; None when the
+    structure does not tell (sympy's assumptions decide then).
+
+    A line of a large program is a sum of hundreds of products of symbols; sympy's
+    assumption system re-derives the realness of each sub-expression on every query, which
+    made this check the costliest part of writing a kernel.
+    """
+    if e.is_Symbol:
+        return True if (e.is_real or e.name in real_names) else None
+    if e.is_Number:
+        return bool(e.is_real)
+    if e.is_Add or e.is_Mul:
+        for a in e.args:
+            if not _known_real(a, real_names):
+                return None
+        return True
+    if e.is_Pow and e.exp.is_Integer:
+        return True if _known_real(e.base, real_names) else None
+    return None
 
 
 class _Writer:
@@ -95,6 +123,11 @@ class _Writer:
         return _Val(code, bool(fresh), self.is_real(e))
 
     def is_real(self, e: sp.Expr) -> bool:
+        known = _known_real(e, self.real_names)
+        if known:
+            return True
+        if known is False:
+            return False
         if e.is_real:
             return True
         subs = {s: sp.Symbol(s.name, real=True) for s in e.free_symbols
@@ -299,8 +332,9 @@ def inplace_body(lines, returns, printer, real_inputs=frozenset()) -> list[str]:
             blocks.append((sym, stmts, w.used))
             fresh_names.add(sym)
             continue
-        consumable = {s for s in fresh_names
-                      if last_use.get(s) == i and s not in returned and _count(expr, s) == 1}
+        dying = [s for s in fresh_names if last_use.get(s) == i and s not in returned]
+        counts = _counts(expr) if dying else {}
+        consumable = {s for s in dying if counts.get(s, 0) == 1}
         w = _Writer(printer, tdep, consumable, real_names, rows, scaled)
         v = w.value(expr, sym.name)
         if v.real or w.is_real(expr):

@@ -285,10 +285,43 @@ def static_program(plan: Plan, kind: str, unpack: tuple) -> Program:
 
 
 def _forward(expr: sp.Expr, d: dict) -> sp.Expr:
-    """Directional derivative of ``expr`` given the derivatives ``d`` of its symbols."""
+    """Directional derivative of ``expr`` given the derivatives ``d`` of its symbols.
+
+    The chain rule is applied node by node (sums, products, integer powers, the program's
+    functions through their ``fdiff``), visiting only the arguments that carry a non-zero
+    derivative; anything else is left to :func:`sympy.diff`. A program line is a sum of
+    hundreds of short products: this costs one pass over it, where ``diff`` rebuilds and
+    re-examines every sub-expression per symbol.
+    """
+    if expr.is_Symbol:
+        return d.get(expr, sp.Integer(0))
+    if expr.is_Number or not any(d.get(f, 0) != 0 for f in expr.free_symbols):
+        return sp.Integer(0)
     if expr.is_Add:
-        # Term by term: each term holds a few symbols, the whole sum hundreds.
         return sp.Add(*[_forward(a, d) for a in expr.args])
+    if expr.is_Mul:
+        args = expr.args
+        terms = []
+        for i, a in enumerate(args):
+            da = _forward(a, d)
+            if da != 0:
+                terms.append(sp.Mul(*args[:i], da, *args[i + 1:]))
+        return sp.Add(*terms)
+    if expr.is_Pow and expr.exp.is_Integer:
+        db = _forward(expr.base, d)
+        return expr.exp * expr.base ** (expr.exp - 1) * db
+    if isinstance(expr, sp.Function) and type(expr).fdiff is not sp.Function.fdiff:
+        terms = []
+        for i, a in enumerate(expr.args):
+            da = _forward(a, d)
+            if da != 0:
+                terms.append(expr.fdiff(i + 1) * da)
+        return sp.Add(*terms)
+    return _forward_by_diff(expr, d)
+
+
+def _forward_by_diff(expr: sp.Expr, d: dict) -> sp.Expr:
+    """:func:`_forward` through :func:`sympy.diff`, symbol by symbol (any other node)."""
     total = sp.Integer(0)
     for f in sorted(expr.free_symbols, key=lambda s: s.name):
         df = d.get(f, 0)
