@@ -68,27 +68,30 @@ def _counts(expr: sp.Expr) -> dict:
     return out
 
 
-def _known_real(e: sp.Expr, real_names: set) -> bool | None:
-    """True when ``e`` is real by its structure alone: sums, products and integer powers of
-    numbers, real symbols and names known real; False for a non-real number; None when the
-    structure does not tell (sympy's assumptions decide then).
+def _known_real(e: sp.Expr, real_names: set) -> bool:
+    """True when ``e`` is known real: sums, products and integer powers of real parts, real
+    numbers, symbols real by assumption or named in ``real_names``, and any other node that
+    sympy's assumptions find real (with the names of ``real_names`` taken real).
 
-    A line of a large program is a sum of hundreds of products of symbols; sympy's
-    assumption system re-derives the realness of each sub-expression on every query, which
-    made this check the costliest part of writing a kernel.
+    Read off the structure: a line of a large program is a sum of hundreds of products of
+    symbols, and sympy's assumption system re-derives the realness of each sub-expression on
+    every query of the whole (the costliest part of writing a kernel, measured). A sum with
+    a part not known real counts as not known real, even where sympy might prove it (``x +
+    conjugate(x)``): such a value is then not updated in place, which is the safe side.
     """
     if e.is_Symbol:
-        return True if (e.is_real or e.name in real_names) else None
+        return bool(e.is_real) or e.name in real_names
     if e.is_Number:
         return bool(e.is_real)
     if e.is_Add or e.is_Mul:
-        for a in e.args:
-            if not _known_real(a, real_names):
-                return None
-        return True
+        return all(_known_real(a, real_names) for a in e.args)
     if e.is_Pow and e.exp.is_Integer:
-        return True if _known_real(e.base, real_names) else None
-    return None
+        return _known_real(e.base, real_names)
+    if e.is_real:
+        return True
+    subs = {s: sp.Symbol(s.name, real=True) for s in e.free_symbols
+            if s.name in real_names and not s.is_real}
+    return bool(subs) and e.xreplace(subs).is_real is True
 
 
 class _Writer:
@@ -123,16 +126,7 @@ class _Writer:
         return _Val(code, bool(fresh), self.is_real(e))
 
     def is_real(self, e: sp.Expr) -> bool:
-        known = _known_real(e, self.real_names)
-        if known:
-            return True
-        if known is False:
-            return False
-        if e.is_real:
-            return True
-        subs = {s: sp.Symbol(s.name, real=True) for s in e.free_symbols
-                if s.name in self.real_names and not s.is_real}
-        return bool(subs) and e.xreplace(subs).is_real is True
+        return _known_real(e, self.real_names)
 
     def varies(self, e: sp.Expr) -> bool:
         return any(f.name in self.tdep for f in e.free_symbols)

@@ -250,9 +250,14 @@ def build_plan(d: Derivation) -> Plan:
             if wab == 0 and wba == 0:
                 continue
             imp = implicit[a] or implicit[b]
-            S = _tidy(wab + wba, imp)
-            D = _tidy(wab - wba, imp)
-            if is_zero(D):
+            if wab == wba:
+                # A = B: Tr(P_a A P_b A) = Tr(P_b A P_a A), and the derivation's weights are
+                # already tidied; nothing to simplify or test.
+                S, D = 2 * wab, sp.Integer(0)
+            else:
+                S = _tidy(wab + wba, imp)
+                D = _tidy(wab - wba, imp)
+            if D != 0 and is_zero(D):
                 D = sp.Integer(0)
             if is_zero(S) and D == 0:
                 continue

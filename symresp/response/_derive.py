@@ -585,7 +585,14 @@ def derive(system: System, A: Operator, B: Operator, *, convention: Convention =
         As = sparse_form(A, basis)
         Bs = As if B == A else sparse_form(B, basis)
         ladder = isinstance(spec, LadderSpectrum)
-        W = spec.operator_weights(A, B, As, Bs, clock) if ladder else spec.weights(As, Bs, clock)
+        if ladder:
+            W = spec.operator_weights(A, B, As, Bs, clock)
+        else:
+            # Each operator is carried into the symmetry sectors once (and once only when
+            # A = B), then shared by the weights and the expectations.
+            As_split = spec.split(As)
+            Bs_split = As_split if Bs is As else spec.split(Bs)
+            W = spec.split_weights(As_split, Bs_split, clock)
         levels, part_level = _group_levels(spec)
         lw: dict[tuple[int, int], sp.Expr] = {}
         count: dict[tuple[int, int], int] = {}
@@ -617,8 +624,8 @@ def derive(system: System, A: Operator, B: Operator, *, convention: Convention =
             eA = level_expect(spec.operator_expectations(A, As))
             eB = level_expect(spec.operator_expectations(B, Bs))
         else:
-            eA = level_expect(spec.expectations(As))
-            eB = level_expect(spec.expectations(Bs))
+            eA = level_expect(spec.split_expectations(As_split))
+            eB = eA if Bs_split is As_split else level_expect(spec.split_expectations(Bs_split))
         ranks = _level_ranks(levels, system.parameters)
         ref = min(ranks, key=ranks.__getitem__)
         return Derivation(system, A, B, convention, spec, tuple(levels), ref, lw, eA, eB, budget,

@@ -46,7 +46,8 @@ from ..models import Clock, System
 from ._blocks import Block, BlockStructure, decompose
 from ._quadratic import Radical, Surd, bilinear
 from ._roots import LevelRoot
-from ._symmetry import SECTOR_NAMES, decompose_entries, find_symmetries, split_block, transform
+from ._symmetry import (SECTOR_NAMES, decompose_entries, find_symmetries, split_block, transform,
+                        transform_blocks)
 
 __all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean", "is_zero_number"]
 
@@ -265,6 +266,17 @@ class Spectrum:
         out: dict[tuple[int, int], dict[tuple[int, int], sp.Expr]] = {}
         sizes = {b.index: len(b.positions) for b in self.structure.blocks}
         for (pi, pj), blk in raw.items():
+            ci, cj = children[pi], children[pj]
+            secs_i = [self.solutions[b].block.sector for b in ci]
+            secs_j = [self.solutions[b].block.sector for b in cj]
+            if len(ci) * len(cj) > 1 and all(x is not None and x.V is not None
+                                             for x in secs_i + secs_j):
+                # Every pair of sectors at once (two rational products per parent pair).
+                for (i, j), t in transform_blocks(blk, [x.dual for x in secs_i],
+                                                  [x.V for x in secs_j],
+                                                  (sizes[pi], sizes[pj])).items():
+                    out[(ci[i], cj[j])] = t
+                continue
             for bi in children[pi]:
                 for bj in children[pj]:
                     si, sj = self.solutions[bi].block.sector, self.solutions[bj].block.sector
@@ -281,7 +293,12 @@ class Spectrum:
     def weights(self, A: SparseForm, B: SparseForm, clock: Clock | None = None
                 ) -> dict[tuple[int, int], sp.Expr]:
         r"""Exact :math:`\mathrm{Tr}(P_a A P_b B)` for every pair of parts (a, b) with a non-zero value."""
-        As, Bs = self.split(A), self.split(B)
+        return self.split_weights(self.split(A), self.split(B), clock)
+
+    def split_weights(self, As: dict, Bs: dict, clock: Clock | None = None
+                      ) -> dict[tuple[int, int], sp.Expr]:
+        """:meth:`weights` from operators already grouped by :meth:`split` (split once, used
+        for the weights and the expectations, and once only when A = B)."""
         out: dict[tuple[int, int], sp.Expr] = {}
         for (bi, bj), a_blk in sorted(As.items()):
             b_blk = Bs.get((bj, bi))
@@ -290,6 +307,14 @@ class Spectrum:
             if clock:
                 clock.check("computing transition weights", f"blocks {bi} -> {bj}")
             si, sj = self.solutions[bi], self.solutions[bj]
+            ca, cb = _scalar(a_blk, si.block.size), _scalar(b_blk, si.block.size)
+            if bi == bj and ca is not None and cb is not None:
+                # A = ca 1 and B = cb 1 on the block: Tr(P_a A P_b B) = ca cb Tr(P_a) d_ab.
+                for fa, f in enumerate(si.factors):
+                    for ra in range(f.degree):
+                        pa = self.index[(bi, fa, ra)]
+                        out[(pa, pa)] = ca * cb * self.parts[pa].multiplicity
+                continue
             for (fa, ra, fb, rb), w in _pair_weights(si, sj, a_blk, b_blk).items():
                 if w != 0:
                     pa = self.index[(bi, fa, ra)]
@@ -299,12 +324,23 @@ class Spectrum:
 
     def expectations(self, A: SparseForm) -> dict[int, sp.Expr]:
         r"""Exact :math:`\mathrm{Tr}(P_a A)` for every part a with a non-zero value."""
-        As = self.split(A)
+        return self.split_expectations(self.split(A))
+
+    def split_expectations(self, As: dict) -> dict[int, sp.Expr]:
+        """:meth:`expectations` from an operator already grouped by :meth:`split`."""
         out: dict[int, sp.Expr] = {}
         for (bi, bj), a_blk in As.items():
             if bi != bj:
                 continue
             s = self.solutions[bi]
+            c = _scalar(a_blk, s.block.size)
+            if c is not None:
+                # A = c 1 on the block: Tr(P_a A) = c Tr(P_a).
+                for fa, f in enumerate(s.factors):
+                    for ra in range(f.degree):
+                        pa = self.index[(bi, fa, ra)]
+                        out[pa] = c * self.parts[pa].multiplicity
+                continue
             # Tr(M^k A) depends on the block only: computed once for all its roots.
             t = [_trace_q(s.powers[k], a_blk) for k in range(s.degree)] if s.kind == "scaled" else []
             for fa, f in enumerate(s.factors):
@@ -323,6 +359,16 @@ class Spectrum:
                     if val != 0:
                         out[self.index[(bi, fa, ra)]] = val
         return out
+
+
+def _scalar(blk: dict, n: int) -> sp.Expr | None:
+    """c when the sparse n x n block is c times the identity (c != 0), else None."""
+    if len(blk) != n:
+        return None
+    c = blk.get((0, 0))
+    if c is None or any(blk.get((i, i)) != c for i in range(n)):
+        return None
+    return c
 
 
 #: Digits used to recognise weights that are exactly zero among implicit (algebraic) roots.

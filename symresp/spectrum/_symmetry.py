@@ -48,7 +48,7 @@ from ..algebra import SPIN, Basis, Operator, SparseForm, dagger, sparse_form
 from ..models import checkpoint
 
 __all__ = ["Sector", "Operation", "Symmetries", "SECTOR_NAMES", "find_symmetries", "split_block",
-           "transform", "decompose_entries", "fermion_orbitals", "mode_permutation", "particle_hole"]
+           "transform_blocks", "transform", "decompose_entries", "fermion_orbitals", "mode_permutation", "particle_hole"]
 
 @dataclass(frozen=True, slots=True, eq=False)
 class Sector:
@@ -399,6 +399,34 @@ def transform(blk: dict, left: flint.fmpq_mat | None, right: flint.fmpq_mat | No
                 if v != 0:
                     out[(i, j)] = out.get((i, j), sp.Integer(0)) + atom * sp.Rational(int(v.p), int(v.q))
     return {k: v for k, v in out.items() if v != 0}
+
+
+def transform_blocks(blk: dict, lefts: list, rights: list, shape: tuple[int, int]
+                     ) -> dict[tuple[int, int], dict[tuple[int, int], sp.Expr]]:
+    """``left_i @ X @ right_j`` for every pair (i, j) of sectors of a row and a column block.
+
+    ``lefts`` are the dual rows of the sectors of the row block, ``rights`` the bases of the
+    sectors of the column block (both complete: together they span the block). The rows are
+    stacked into one matrix and the columns into another, so X is carried over by two
+    rational products in all, not two per pair of sectors; the result is cut into the pairs.
+    Pairs without a non-zero entry are left out.
+    """
+    n, m = shape
+    left = _stack([L.entries() for L in lefts], [L.nrows() for L in lefts], n)
+    right = _stack([R.transpose().entries() for R in rights], [R.ncols() for R in rights], m
+                   ).transpose()
+    row_of = [(i, r) for i, L in enumerate(lefts) for r in range(L.nrows())]
+    col_of = [(j, c) for j, R in enumerate(rights) for c in range(R.ncols())]
+    out: dict[tuple[int, int], dict[tuple[int, int], sp.Expr]] = {}
+    for (r, c), v in transform(blk, left, right, shape).items():
+        (i, rr), (j, cc) = row_of[r], col_of[c]
+        out.setdefault((i, j), {})[(rr, cc)] = v
+    return out
+
+
+def _stack(entries: list[list], rows: list[int], width: int) -> flint.fmpq_mat:
+    """The matrices given by their entries (row-major, ``width`` columns) one under another."""
+    return flint.fmpq_mat(sum(rows), width, [x for e in entries for x in e])
 
 
 # ----------------------------------------------------------------------------- projectors

@@ -112,9 +112,13 @@ def run(name: str, profile: str | None) -> dict:
     cmd = [sys.executable, __file__, "--worker", name]
     if profile:
         cmd += ["--profile", profile]
+    # The checkout this script belongs to is imported, whatever is installed.
+    root = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join(
+        [root] + [p for p in os.environ.get("PYTHONPATH", "").split(os.pathsep) if p]))
     t = time.perf_counter()
     try:
-        proc = subprocess.run(cmd, capture_output=True, text=True, timeout=TIMEOUT)
+        proc = subprocess.run(cmd, capture_output=True, text=True, timeout=TIMEOUT, env=env)
     except subprocess.TimeoutExpired:
         return {"error": f"did not finish in {TIMEOUT:.0f} s"}
     wall = time.perf_counter() - t
