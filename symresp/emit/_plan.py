@@ -242,6 +242,7 @@ def build_plan(d: Derivation) -> Plan:
     implicit = tuple(lv.implicit for lv in levels)
     W = {k: sub(v) for k, v in d.level_weights.items()}
 
+    same = d.A == d.B
     pairs: list[Pair] = []
     for a in range(L):
         checkpoint("planning the evaluator: pairs of levels", f"level {a + 1} of {L}")
@@ -250,10 +251,10 @@ def build_plan(d: Derivation) -> Plan:
             if wab == 0 and wba == 0:
                 continue
             imp = implicit[a] or implicit[b]
-            if wab == wba:
+            if same or wab == wba:
                 # A = B: Tr(P_a A P_b A) = Tr(P_b A P_a A), and the derivation's weights are
                 # already tidied; nothing to simplify or test.
-                S, D = 2 * wab, sp.Integer(0)
+                S, D = 2 * (wab if wab != 0 else wba), sp.Integer(0)
             else:
                 S = _tidy(wab + wba, imp)
                 D = _tidy(wab - wba, imp)

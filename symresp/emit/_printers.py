@@ -69,6 +69,27 @@ class _ProgramPrinting:
 
     _suffix = "_a"
 
+    def __init__(self, settings: dict | None = None) -> None:
+        # Terms and factors in the order the expression holds them (sympy's canonical order,
+        # the same on every run): sorting them for display cost a third of the printing time
+        # of a large evaluator, measured, and the code reads no worse.
+        super().__init__({"order": "none", **(settings or {})})
+
+    def doprint(self, expr, assign_to=None) -> str:
+        """The code of one expression; the plain case (no assignment target, nothing to declare
+        or to comment on) skips the general machinery of :meth:`CodePrinter.doprint` (a full
+        tree replacement per call, a fifth of the printing time of a large evaluator)."""
+        if assign_to is not None or not isinstance(expr, sp.Basic) \
+                or expr.has(sp.UnevaluatedExpr):
+            return super().doprint(expr, assign_to)
+        self._not_supported = set()
+        self._number_symbols = set()
+        text = self._print(expr)
+        plain = not (self._not_supported or self._number_symbols or "\n" in text)
+        self._not_supported = set()
+        self._number_symbols = set()
+        return text if plain else super().doprint(expr)
+
     def _helper(self, name: str, *args: sp.Expr) -> str:
         return f"_{name}{self._suffix}({', '.join(self._print(a) for a in args)})"
 

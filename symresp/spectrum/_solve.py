@@ -298,12 +298,14 @@ class Spectrum:
     def split_weights(self, As: dict, Bs: dict, clock: Clock | None = None
                       ) -> dict[tuple[int, int], sp.Expr]:
         """:meth:`weights` from operators already grouped by :meth:`split` (split once, used
-        for the weights and the expectations, and once only when A = B)."""
+        for the weights and the expectations, and once only when A = B). When ``As is Bs``
+        (A = B) the weights of the pair of blocks (j, i) are those of (i, j), transposed."""
         out: dict[tuple[int, int], sp.Expr] = {}
+        same = As is Bs
         for (bi, bj), a_blk in sorted(As.items()):
             b_blk = Bs.get((bj, bi))
-            if not b_blk:
-                continue
+            if not b_blk or (same and bi > bj):
+                continue                # A = B: the pair (bj, bi) gives these (see below)
             if clock:
                 clock.check("computing transition weights", f"blocks {bi} -> {bj}")
             si, sj = self.solutions[bi], self.solutions[bj]
@@ -320,6 +322,8 @@ class Spectrum:
                     pa = self.index[(bi, fa, ra)]
                     pb = self.index[(bj, fb, rb)]
                     out[(pa, pb)] = w
+                    if same:            # Tr(P_a A P_b A) = Tr(P_b A P_a A)
+                        out[(pb, pa)] = w
         return out
 
     def expectations(self, A: SparseForm) -> dict[int, sp.Expr]:
