@@ -31,8 +31,8 @@ from ._eigen import eigen_plan
 from ._inplace import inplace_body
 from ._plan import Plan, build_plan, fingerprint
 from ._pole_module import ladder_module_source, motion_module_source
-from ._printers import ArrayPrinter, ScalarPrinter
-from ._program import (Program, energies_program, jacobian_program, omega_program,
+from ._printers import ArrayPrinter, ConstantTable, ScalarPrinter
+from ._program import (Program, energies_program, freeze_plan, jacobian_program, omega_program,
                        params_program, poles_program, spectral_program, static_program,
                        time_program)
 from ._runtime import runtime_source
@@ -460,6 +460,11 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     plan = eigen_plan(derivation, exact)
     fp = fingerprint(derivation)
     version = symresp_version()
+    # One table of constants for the module: every program below reads frozen plans.
+    table = ConstantTable()
+    levels = exact.energies                     # exact, for the ENERGIES text
+    plan = freeze_plan(plan, table)
+    exact = freeze_plan(exact, table)
     # Both take the levels of semi-closed blocks from the numerically diagonalised block.
     jac = replace(exact, eigen=plan.eigen)
     P = {kind: params_program(jac if kind == "jacobian" else plan, kind)
@@ -497,7 +502,7 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
         f"PARAMETERS = {user!r}",
         f"DEGENERACIES = {tuple(plan.degeneracies)!r}",
         "ENERGIES = (",
-        *[f"    {sp.sstr(e)!r}," for e in plan.energies],
+        *[f"    {sp.sstr(e)!r}," for e in levels],
         ")",
     ]
     src += runtime_source().splitlines()

@@ -174,6 +174,14 @@ def _tidy(expr: sp.Expr, implicit: bool) -> sp.Expr:
     return expr if implicit else clean(expr)
 
 
+def _spacing(Ea: sp.Expr, Eb: sp.Expr, implicit: bool, params: tuple) -> sp.Expr:
+    """E_b - E_a, exact: expanded where both levels are polynomials in the parameters (their
+    difference is then already in lowest terms), tidied otherwise."""
+    if not implicit and Ea.is_polynomial(*params) and Eb.is_polynomial(*params):
+        return sp.expand(Eb - Ea)
+    return _tidy(Eb - Ea, implicit)
+
+
 def _safe_names(symbols: tuple[sp.Symbol, ...]) -> tuple[sp.Symbol, ...]:
     """Python identifiers for the parameters inside the emitted code, as close to the physics
     names as possible and distinct from every name the code itself uses (:data:`_TAKEN`)."""
@@ -262,7 +270,7 @@ def build_plan(d: Derivation) -> Plan:
                 D = sp.Integer(0)
             if is_zero(S) and D == 0:
                 continue
-            pairs.append(Pair(a, b, _tidy(energies[b] - energies[a], imp), S, D))
+            pairs.append(Pair(a, b, _spacing(energies[a], energies[b], imp, safe), S, D))
 
     groups = _group_pairs(pairs, safe)
 

@@ -25,7 +25,7 @@ from sympy.printing.pycode import PythonCodePrinter
 from ._functions import (AsComplex, AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal,
                          DegeneracyTol, ExpDiv, ExpDiv2, Keep, LevelMin, RootPick)
 
-__all__ = ["ArrayPrinter", "ScalarPrinter", "freeze_constants", "DIGITS"]
+__all__ = ["ArrayPrinter", "ScalarPrinter", "ConstantTable", "freeze_constants", "DIGITS"]
 
 #: Decimal digits of the literals printed for irrational constants (implicit roots, sqrt(5), ...).
 DIGITS = 30
@@ -35,33 +35,78 @@ def _float(value: sp.Expr) -> sp.Float:
     return sp.Float(sp.N(value, DIGITS), DIGITS)
 
 
-def freeze_constants(expr: sp.Expr) -> sp.Expr:
+class ConstantTable:
+    """The irrational constants of one emitted module, each converted to a Float once.
+
+    An evaluator module is several programs (stage P of each kind, energies, correlation)
+    built from the same levels and weights; the table converts every exact constant the
+    first time it is met and hands the same Float to every later program. ``conversions``
+    counts the numerical evaluations made (one per entry of ``values``).
+    """
+
+    def __init__(self) -> None:
+        self.values: dict[sp.Expr, sp.Expr] = {}
+        self.conversions = 0
+
+    def value(self, number: sp.Expr) -> sp.Expr:
+        """``number`` (exact, irrational) as a Float, or a Float plus i times a Float."""
+        out = self.values.get(number)
+        if out is None:
+            out = _convert(number)
+            self.values[number] = out
+            self.conversions += 1
+        return out
+
+    def freeze(self, expr: sp.Expr) -> sp.Expr:
+        """:func:`freeze_constants` with the conversions shared through this table."""
+        return freeze_constants(expr, self)
+
+
+def _convert(number: sp.Expr) -> sp.Expr:
+    if isinstance(number, sp.NumberSymbol):
+        return _float(number)
+    value = sp.N(number, DIGITS)
+    if value.is_real is False or value.has(sp.I):
+        re, im = value.as_real_imag()
+        return _float(re) + sp.I * _float(im) if im != 0 else _float(re)
+    return _float(value)
+
+
+def freeze_constants(expr: sp.Expr, table: ConstantTable | None = None) -> sp.Expr:
     r"""Replace every irrational constant sub-expression by a 30-digit Float.
 
     A weight such as :math:`(7r^2 - 3r + 1)/20` with an implicit root :math:`r` is a single
     exact number; evaluating it once at high precision is both faster and more accurate than
     evaluating the polynomial in double precision at run time. Rational numbers stay exact
-    (printed as ``p/q``, folded by the Python compiler).
+    (printed as ``p/q``, folded by the Python compiler); Floats are kept as they are (an
+    expression frozen once is not converted again). With a ``table``, each constant is
+    converted once for all the expressions frozen through it.
     """
+    if isinstance(expr, sp.Float):
+        return expr
     if not isinstance(expr, sp.Basic) or expr.is_Atom:
         if isinstance(expr, sp.NumberSymbol):
-            return _float(expr)
+            return table.value(expr) if table is not None else _convert(expr)
         return expr
     if expr.is_number:
         if expr.is_Rational:
             return expr
-        value = sp.N(expr, DIGITS)
-        if value.is_real is False or value.has(sp.I):
-            re, im = value.as_real_imag()
-            return _float(re) + sp.I * _float(im) if im != 0 else _float(re)
-        return _float(value)
+        if not expr.has(*_EXACT_ATOMS) and not expr.atoms(sp.Function, sp.NumberSymbol):
+            # Floats and rationals only (a frozen constant times a rational, say): sympy has
+            # folded it already, or it is a sum such as Float + I*Float.
+            return expr
+        return table.value(expr) if table is not None else _convert(expr)
     if isinstance(expr, (sp.Mul, sp.Add)):
         numbers = [a for a in expr.args if a.is_number]
-        others = [freeze_constants(a) for a in expr.args if not a.is_number]
+        others = [freeze_constants(a, table) for a in expr.args if not a.is_number]
         if len(numbers) > 1 or (numbers and not numbers[0].is_Rational):
-            numbers = [freeze_constants(expr.func(*numbers))]
+            numbers = [freeze_constants(expr.func(*numbers), table)]
         return expr.func(*numbers, *others)
-    return expr.func(*[freeze_constants(a) for a in expr.args])
+    return expr.func(*[freeze_constants(a, table) for a in expr.args])
+
+
+#: Exact irrational pieces a constant may hold (anything else numeric is Floats and rationals).
+_EXACT_ATOMS = (sp.Pow, sp.CRootOf)
 
 
 class _ProgramPrinting:

@@ -20,19 +20,19 @@ Imports: sympy, :mod:`._functions`, :mod:`._plan`, :mod:`._printers`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import sympy as sp
 
 from .._tolerances import DEGENERACY_RTOL as _DEGENERACY_RTOL
 from ._functions import (AsComplex, AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal, DegeneracyTol, ExpDiv,
                          ExpDiv2, Keep, LevelMin, RootPick)
-from ._plan import Plan
-from ._printers import freeze_constants
+from ._plan import Pair, Plan
+from ._printers import ConstantTable, freeze_constants
 
 __all__ = ["Program", "params_program", "static_program", "jacobian_program",
            "poles_program", "omega_program", "spectral_program", "time_program",
-           "energies_program", "differentiate", "BETA", "DEGENERACY_RTOL"]
+           "energies_program", "differentiate", "freeze_plan", "BETA", "DEGENERACY_RTOL"]
 
 #: Relative level-grouping tolerance of the isolated susceptibility (symresp._tolerances).
 DEGENERACY_RTOL = sp.Float(_DEGENERACY_RTOL)
@@ -83,6 +83,27 @@ _EMIN = _s("_emin")
 
 def _freeze(e: sp.Expr) -> sp.Expr:
     return freeze_constants(sp.sympify(e))  # safe: a sympy object or number from symresp, never user text
+
+
+def freeze_plan(plan: Plan, table: ConstantTable) -> Plan:
+    """``plan`` with every irrational constant of its levels, pairs, level coefficients and
+    semi-closed blocks converted to a Float through ``table``: the programs of one module
+    read the plan many times, and each constant is then converted once for all of them."""
+    f = table.freeze
+
+    def pair(p: Pair) -> Pair:
+        return Pair(p.a, p.b, f(p.w), f(p.S), f(p.D))
+
+    def block(eb):
+        return replace(eb, others=tuple(f(o) for o in eb.others),
+                       matrix=tuple(f(e) for e in eb.matrix))
+
+    return replace(plan, energies=tuple(f(e) for e in plan.energies),
+                   pairs=tuple(pair(p) for p in plan.pairs),
+                   fluctuation=tuple(f(e) for e in plan.fluctuation),
+                   mean_a=tuple(f(e) for e in plan.mean_a),
+                   mean_b=tuple(f(e) for e in plan.mean_b),
+                   eigen=tuple(block(eb) for eb in plan.eigen))
 
 
 # ---------------------------------------------------------------------------------- stage P
