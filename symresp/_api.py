@@ -7,9 +7,6 @@ imports this module.
 
 from __future__ import annotations
 
-import cmath
-import math
-import numbers
 import types
 from collections.abc import Mapping, Sequence
 from typing import Literal
@@ -19,21 +16,18 @@ import sympy as sp
 
 from . import numeric
 from ._public import public
-from .algebra import Operator, Site, describe, exact_decimal, to_array, to_sympy_matrix
+from .algebra import Operator, Site, describe, to_array, to_sympy_matrix
 from .cases import find_case, read_case, with_values
 from .checks import Report, Verdict, compare, consistency
-from .emit import (draw_levels, draw_map, draw_spectrum, draw_static, draw_sweep, latex_document,
-                   level_scheme, level_sweep, numpy_functions, numpy_module_source, save_figure,
-                   spectral_map, spectrum, static_curves)
-from .conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
+from .emit import latex_document, numpy_functions, numpy_module_source
+from .conventions import DEFAULT_CONVENTION, Convention, nu, omega, t
 from .errors import InputError
 from .models import Budget, System
-from .response import (CHECKED_QUANTITIES, Derivation, Level, Presentation, Quantity, StaticKind,
-                       Transition, check_quantity, derive, evaluate_exact, present_response,
-                       quantity_expression)
+from ._evaluation import evaluate_at, numeric_params, reference_at
+from ._display import latex_block, picture, results_section, summary_text
+from .response import Derivation, Level, Presentation, Quantity, StaticKind, Transition, derive
 
 __all__ = ["Model", "Response", "load_case"]
-
 
 
 @public
@@ -166,7 +160,7 @@ class Model:
         [2.0, 0.0, -2.0]
         """
         system, X = self._resolve(op)
-        return to_array(X, system.basis(), _numeric_params(system, params))
+        return to_array(X, system.basis(), numeric_params(system, params))
 
     def basis_labels(self) -> list[str]:
         """Kets of the basis in the row order of :meth:`matrix` and :meth:`array`.
@@ -241,53 +235,6 @@ class Model:
     def __repr__(self) -> str:
         sites = ", ".join(repr(s) for s in self.sites)
         return f"Model({self._system.name!r}: {sites}; dimension {self.dimension})"
-
-
-def _is_number(value: object, *, real: bool) -> bool:
-    """A number given from Python code (never a string: text is not evaluated here)."""
-    if isinstance(value, (bool, np.bool_, str, bytes)):
-        return False
-    kinds = (numbers.Real,) if real else (numbers.Complex,)
-    if isinstance(value, kinds):
-        return True
-    return isinstance(value, sp.Expr) and bool(value.is_number) and (not real or bool(value.is_real))
-
-
-def _real_number(value: object, what: str) -> float:
-    """A finite real number from Python code, as a float; strings and other objects raise."""
-    if not _is_number(value, real=True):
-        shown = f"{value!r}" if not isinstance(value, str) else f"the string {value!r}"
-        raise InputError(f"{what}={shown} must be a real number (int or float), not "
-                         f"{type(value).__name__}; text is never evaluated")
-    v = float(value)
-    if not math.isfinite(v):
-        raise InputError(f"{what}={value!r} must be finite")
-    return v
-
-
-def _exact(value: float) -> sp.Rational:
-    """The exact value of a number given as a float: the decimal it prints as."""
-    return exact_decimal(value)
-
-
-def _numeric_params(system: System, params: Mapping | None) -> dict[sp.Symbol, complex]:
-    out: dict[sp.Symbol, complex] = {}
-    if params is not None and not isinstance(params, Mapping):
-        raise InputError(f"params={params!r} must be a mapping {{name: number}}")
-    by_name = {p.name: p for p in system.parameters}
-    for k, v in (params or {}).items():
-        sym = by_name.get(k) if isinstance(k, str) else (k if k in system.parameters else None)
-        if sym is None:
-            known = ", ".join(by_name) or "none"
-            raise InputError(f"params: unknown parameter {k!r} (model parameters: {known})")
-        if not _is_number(v, real=False):
-            raise InputError(f"params: value {v!r} for {k} is not a number (give an int, float "
-                             f"or complex; text is never evaluated)")
-        val = complex(v)
-        if not cmath.isfinite(val):
-            raise InputError(f"params: value {v!r} for {k} is not finite")
-        out[sym] = val
-    return out
 
 
 @public
@@ -520,8 +467,8 @@ class Response:
         0.5
         """
         with self._budgeted():
-            return evaluate_expression(self, quantity, params=params, T=T, omega_value=omega_value,
-                                       time_value=time_value)
+            return evaluate_at(self._d, quantity, params=params, T=T, omega_value=omega_value,
+                               time_value=time_value)
 
     def reference(self, *, params: Mapping | None = None, T: float) -> numeric.NumericResponse:
         """The numeric reference (exact diagonalisation) at numbers, for comparison.
@@ -533,17 +480,7 @@ class Response:
         >>> round(sr.Model(0 * s.z).response(s.z).reference(T=0.5).isothermal.real, 12)
         0.5
         """
-        T_value = _real_number(T, "reference: T")
-        if not T_value > 0:
-            raise InputError(f"reference: T={T!r} must be a positive finite number")
-        T = T_value
-        system = self._d.system
-        p = _numeric_params(system, params)
-        basis = system.basis()
-        H = to_array(system.hamiltonian, basis, p)
-        A = to_array(self._d.A, basis, p)
-        B = to_array(self._d.B, basis, p)
-        return numeric.solve(H, A, B, 1.0 / T)
+        return reference_at(self._d, params=params, T=T)
 
     def check(self, formula: object, quantity: Quantity = "isothermal", *, samples: int = 9,
               seed: int = 0, units: Mapping | None = None) -> Verdict:
@@ -657,13 +594,7 @@ class Response:
         >>> sp.simplify(p.value("isothermal") - 2*sr.beta/(3 + sp.exp(sr.beta*J)))
         0
         """
-        if isinstance(quantities, str):
-            quantities = (quantities,)
-        if not isinstance(budget, Budget):
-            raise InputError(f"presented: budget={budget!r} must be a symresp.models.Budget")
-        values = _numeric_params(self._d.system, point)
-        pt = {k: sp.Float(v.real) for k, v in values.items()}
-        return present_response(self._d, tuple(quantities), point=pt, clock=budget.start())
+        return results_section(self._d, quantities, point=point, budget=budget)
 
     def plot(self, kind: Literal["levels", "sweep", "spectrum", "map", "static"], *,
              params: Mapping | None = None, T: float | None = None, eta: float | None = None,
@@ -692,39 +623,9 @@ class Response:
         >>> len(fig.axes[0].patches)        # one arrow per transition with weight
         2
         """
-        allowed = ("levels", "sweep", "spectrum", "map", "static")
-        if kind not in allowed:
-            raise InputError(f"plot: kind={kind!r} must be one of {', '.join(allowed)}")
-        d = self._d
-        if kind in ("levels", "spectrum"):
-            if T is None:
-                raise InputError(f"plot: the {kind} picture needs a temperature T=")
-            fig = (draw_levels(level_scheme(d, params, T)) if kind == "levels"
-                   else draw_spectrum(spectrum(d, params, T, eta=eta)))
-        elif kind == "sweep":
-            if parameter is None or values is None:
-                raise InputError("plot: the sweep picture needs parameter= and values=")
-            full = dict(params or {})
-            full.setdefault(parameter, 0.0)
-            fig = draw_sweep(level_sweep(d, full, parameter, values))
-        else:
-            if temperatures is None:
-                raise InputError(f"plot: the {kind} picture needs temperatures=")
-            if kind == "map":
-                fig = draw_map(spectral_map(d, params, temperatures, eta=eta))
-            else:
-                overlay = None
-                if data is not None:
-                    try:
-                        xs, ys = (np.asarray(v, dtype=float) for v in data)
-                    except (TypeError, ValueError):
-                        raise InputError("plot: data must be (temperatures, values)") from None
-                    overlay = (xs, ys)
-                fig = draw_static(static_curves(d, params, temperatures), kinds=kinds,
-                                  log_T=log_T, data=overlay, data_kind=data_kind)
-        if path is not None:
-            save_figure(fig, path)
-        return fig
+        return picture(self._d, kind, params=params, T=T, eta=eta, parameter=parameter,
+                       values=values, temperatures=temperatures, kinds=kinds, log_T=log_T,
+                       data=data, data_kind=data_kind, path=path)
 
     def summary(self) -> str:
         """A readable derivation summary: levels, transitions, Z, static and dynamic chi.
@@ -737,27 +638,7 @@ class Response:
         Linear response chi_AB of model 'model'
         """
         with self._budgeted():
-            return self._summary()
-
-    def _summary(self) -> str:
-        d = self._d
-        lines = [f"Linear response chi_AB of model {d.system.name!r}",
-                 f"  A = {describe(d.A)}", f"  B = {describe(d.B)}",
-                 f"  convention: {d.convention.describe()}",
-                 f"  blocks: {d.spectrum.describe()}", "", "Levels (E, degeneracy, quantum numbers):"]
-        for lv in d.levels:
-            qn = "; ".join(", ".join(f"{n}={v}" for n, v in lab) for lab in lv.quantum_numbers)
-            lines.append(f"  E = {sp.sstr(lv.energy):<30} g = {lv.degeneracy:<3} {qn}")
-        lines += ["", "Transitions (Omega = E_b - E_a, W_ab = Tr(P_a A P_b B)):"]
-        for tr in d.transitions():
-            lines.append(f"  {tr.lower} -> {tr.upper}: Omega = {sp.sstr(tr.frequency)}, W = {sp.sstr(tr.matrix_weight)}")
-        if not d.transitions():
-            lines.append("  none")
-        lines += ["", f"Z = {sp.sstr(d.partition())}",
-                  f"chi_isothermal = {sp.sstr(self.static('isothermal'))}",
-                  f"chi_isolated   = {sp.sstr(self.static('isolated'))}",
-                  f"chi(omega)     = {sp.sstr(self.frequency())}"]
-        return "\n".join(lines)
+            return summary_text(self._d)
 
     def latex(self) -> str:
         r"""LaTeX (aligned) block with Z, the static susceptibilities and :math:`\chi(\omega)`.
@@ -770,76 +651,13 @@ class Response:
         Z &= 2 \\
         """
         with self._budgeted():
-            return self._latex()
-
-    def _latex(self) -> str:
-        rows = [("Z", self.partition_function()),
-                (r"\chi^{T}_{AB}", self.static("isothermal")),
-                (r"\chi^{\mathrm{isol}}_{AB}", self.static("isolated")),
-                (r"\chi_{AB}(\omega)", self.frequency())]
-        body = " \\\\\n".join(f"{k} &= {sp.latex(v)}" for k, v in rows)
-        return "\\begin{aligned}\n" + body + " \\\\\n\\end{aligned}"
+            return latex_block(self._d)
 
     def _repr_latex_(self) -> str:
         return "$$" + self.latex() + "$$"
 
     def __repr__(self) -> str:
         return f"Response(A={describe(self._d.A)}, B={describe(self._d.B)}, levels={len(self._d.levels)})"
-
-
-#: Relative step off a removable singularity of a closed form in :func:`evaluate_expression`.
-_NUDGE = sp.Rational(1, 10**15)
-
-
-def evaluate_expression(r: Response, quantity: str, *, params: Mapping | None, T: float | None,
-                        omega_value: complex | None = None, time_value: float | None = None) -> complex:
-    """Numeric value of one of the response's closed forms (mpmath precision, via sympy)."""
-    system = r.derivation.system
-    p = _numeric_params(system, params)
-    missing = set(system.parameters) - set(p)
-    check_quantity(quantity, CHECKED_QUANTITIES, "evaluate: quantity")
-    expr = quantity_expression(r.derivation, quantity)
-    missing &= expr.free_symbols
-    if missing:
-        raise InputError(f"evaluate: give values for {', '.join(sorted(map(str, missing)))} in params=")
-    subs: dict = {k: _exact(v.real) + (sp.I * _exact(v.imag) if v.imag else 0) for k, v in p.items()}
-    T_value = None if T is None else _real_number(T, "evaluate: T")
-    if expr.has(beta):
-        if T_value is None or not T_value > 0:
-            raise InputError(f"evaluate: T={T!r} must be a positive temperature")
-        subs[beta] = 1 / _exact(T_value)
-    if quantity == "frequency":
-        if omega_value is None:
-            raise InputError("evaluate: give omega_value for the 'frequency' quantity")
-        if not _is_number(omega_value, real=False):
-            raise InputError(f"evaluate: omega_value={omega_value!r} must be a number (complex "
-                             f"allowed), not {type(omega_value).__name__}")
-        z = complex(omega_value)
-        if not cmath.isfinite(z):
-            raise InputError(f"evaluate: omega_value={omega_value!r} must be finite")
-        subs[omega] = _exact(z.real) + sp.I * _exact(z.imag)
-    if quantity == "time":
-        if time_value is None:
-            raise InputError("evaluate: give time_value for the 'time' quantity")
-        subs[t] = _exact(_real_number(time_value, "evaluate: time_value"))
-    value = evaluate_exact(expr, subs, where="evaluate")
-    if cmath.isfinite(value) or not p:
-        return value
-    # A removable singularity of the closed form: two levels meet at this point, e.g. a term
-    # (p_a - p_b) W / (E_b - E_a) at E_a = E_b. The response is analytic there, so its value
-    # is the limit, taken 1e-15 (relative) away in 30-digit arithmetic. The isolated
-    # susceptibility is the exception: it drops degenerate pairs by definition, so it jumps.
-    if quantity == "isolated":
-        raise InputError("evaluate: levels of the closed form meet at these parameters, where the "
-                         "isolated susceptibility is discontinuous (degenerate pairs leave it); use "
-                         "Response.reference(...) or the emitted evaluator (Response.numpy()) there")
-    nudged = dict(subs)
-    for i, k in enumerate(sorted(p, key=lambda s: s.name)):
-        v = subs[k]
-        nudged[k] = v * (1 + (i + 1) * _NUDGE) if v != 0 else (i + 1) * _NUDGE
-    # Weights of a block whose eigenvectors are undefined at the point can be singular to
-    # second order: 60 digits leave 30 after the cancellation.
-    return evaluate_exact(expr, nudged, digits=60, where="evaluate")
 
 
 @public

@@ -33,8 +33,8 @@ PACKAGE = Path(__file__).resolve().parents[1] / "symresp"
 RANKS = {
     "conventions": 0, "errors": 0, "_public": 0, "_tolerances": 0, "_files": 0,
     "algebra": 1, "numeric": 1, "text": 2, "models": 3, "spectrum": 4, "response": 5,
-    "checks": 6, "emit": 7, "cases": 8, "_api": 9, "batch": 9, "cli": 10, "__main__": 11,
-    "__init__": 11,
+    "checks": 6, "emit": 7, "cases": 8, "_api": 9, "_evaluation": 9, "_display": 9, "batch": 9,
+    "cli": 10, "__main__": 11, "__init__": 11,
 }
 
 #: Third-party packages each layer may import (the standard library is always allowed).
@@ -45,7 +45,8 @@ THIRD_PARTY = {
     "algebra": {"sympy", "numpy"}, "text": {"sympy"}, "models": {"sympy"},
     "spectrum": _SYMBOLIC | {"flint"}, "response": _SYMBOLIC, "checks": _SYMBOLIC,
     "emit": _SYMBOLIC, "cases": _SYMBOLIC | {"scipy"},  # scipy: least-squares fits of data
-    "_api": _SYMBOLIC, "batch": set(), "cli": _SYMBOLIC,
+    "_api": _SYMBOLIC, "_evaluation": _SYMBOLIC, "_display": _SYMBOLIC, "batch": set(),
+    "cli": _SYMBOLIC,
     "__main__": set(), "__init__": set(),
 }
 #: Optional dependencies: the one module that may import each, always under ``try``.
