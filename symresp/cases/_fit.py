@@ -218,36 +218,8 @@ class MagnetometryModel:
         self.t_kelvin = float(TEMPERATURE_UNITS[case.temperature_unit] / EXACT["k_B"])
         self.finite_field = finite_field
         self.progress = progress
-        field_syms = sp.sympify(mag.zeeman.field).free_symbols  # safe: sympy object
-        bad = [s.name for s in self.varied if s in field_syms]
-        if bad:
-            raise InputError(f"the field parameter {bad[0]} cannot be varied: the field is set by "
-                             f"the data (column B) or by its value")
-        fixed = {s: v for s, v in values.items() if s not in set(self.varied)}
-        self.fixed = fixed
-        H0 = case.system.hamiltonian - mag.zeeman.term
-        self.H0 = H0.subs(fixed)
-        self.handles = {h: g.subs(fixed) for h, g in mag.zeeman.handles().items()}
-        self.sites = case.system.sites
-        self.direction = mag.zeeman.direction
-        model_syms = set(self.H0.free_symbols)
-        for g in self.handles.values():
-            model_syms |= g.free_symbols
-        self.model_symbols = tuple(s for s in self.varied if s in model_syms)
-        leftover = model_syms - set(self.varied)
-        if leftover:
-            raise InputError(f"no value for {', '.join(sorted(s.name for s in leftover))}: give "
-                             f"one in the case file or with --set NAME=VALUE")
-        entries = {k: sp.sympify(v).subs(fixed)  # safe: sympy objects
-                   for k, v in self.sample.entries().items()}
-        self.entries = entries
-        used = set(self.model_symbols) | {e for e in entries.values() if isinstance(e, sp.Symbol)}
-        unused = [s.name for s in self.varied if s not in used]
-        if unused:
-            raise InputError(f"the varied parameter {unused[0]} does not enter the model of the "
-                             f"data (Hamiltonian, g, [sample]); remove it from --vary")
-        budget_clock = budget.start()
-        self.clock = budget_clock
+        self._fix_parameters(values)
+        self.clock = budget.start()
         # Orientation: directions (and symmetry) of the average.
         if self.sample.orientation == "oriented":
             self.symmetry = "oriented"
@@ -266,6 +238,38 @@ class MagnetometryModel:
             self._build_axes(budget)
 
     # ------------------------------------------------------------ set-up
+    def _fix_parameters(self, values: Mapping[sp.Symbol, sp.Rational]) -> None:
+        """Substitute the fixed parameters into H (without its Zeeman term), g and [sample];
+        every varied parameter must enter one of them, every other one must have a value."""
+        zeeman = self.case.magnetism.zeeman
+        field_syms = sp.sympify(zeeman.field).free_symbols  # safe: sympy object
+        bad = [s.name for s in self.varied if s in field_syms]
+        if bad:
+            raise InputError(f"the field parameter {bad[0]} cannot be varied: the field is set by "
+                             f"the data (column B) or by its value")
+        fixed = {s: v for s, v in values.items() if s not in set(self.varied)}
+        self.fixed = fixed
+        self.H0 = (self.case.system.hamiltonian - zeeman.term).subs(fixed)
+        self.handles = {h: g.subs(fixed) for h, g in zeeman.handles().items()}
+        self.sites = self.case.system.sites
+        self.direction = zeeman.direction
+        model_syms = set(self.H0.free_symbols)
+        for g in self.handles.values():
+            model_syms |= g.free_symbols
+        self.model_symbols = tuple(s for s in self.varied if s in model_syms)
+        leftover = model_syms - set(self.varied)
+        if leftover:
+            raise InputError(f"no value for {', '.join(sorted(s.name for s in leftover))}: give "
+                             f"one in the case file or with --set NAME=VALUE")
+        self.entries = {k: sp.sympify(v).subs(fixed)  # safe: sympy objects
+                        for k, v in self.sample.entries().items()}
+        used = set(self.model_symbols) | {e for e in self.entries.values()
+                                          if isinstance(e, sp.Symbol)}
+        unused = [s.name for s in self.varied if s not in used]
+        if unused:
+            raise InputError(f"the varied parameter {unused[0]} does not enter the model of the "
+                             f"data (Hamiltonian, g, [sample]); remove it from --vary")
+
     def _uniform_g(self) -> bool:
         gs = list(self.handles.values())
         return all(g.matrix == gs[0].matrix for g in gs)
@@ -630,6 +634,20 @@ def fit_case(case: Case, data: DataTable, vary: Sequence[str], *,
                          f"(g of each spin site, field in tesla); see docs/case-files.md")
     given = {p.symbol: v for p, v in parameter_values(case, values).items()}
     start = {**case.defaults, **given}
+    B = _fields(case, data, start)
+    finite = quantity == "M" or bool(np.any(B > 0))
+    _check_varied(case, vary, start)
+    model = magnetometry_model(case, quantity, list(vary), values=values, finite_field=finite,
+                               budget=budget, progress=progress)
+    progress(f"fitting {', '.join(vary)} to {len(data)} points of {quantity}")
+    sol = _least_squares(model, data, B, start)
+    fitted, _ = model(sol.x, np.array(data.T, dtype=float), B)
+    return _fit_result(case, data, tuple(vary), model, sol, start, fitted, B, curve_points)
+
+
+def _fields(case: Case, data: DataTable, start: Mapping[sp.Symbol, sp.Expr]) -> np.ndarray:
+    """The field (tesla) at each data point: the B column, or the case's field value."""
+    mag = case.magnetism
     field = sp.sympify(mag.zeeman.field).subs(start)  # safe: sympy object
     if data.B is not None:
         B = np.array(data.B, dtype=float)
@@ -638,13 +656,17 @@ def fit_case(case: Case, data: DataTable, vary: Sequence[str], *,
                          f"the case file, with --set, or as a B column of the data")
     else:
         B = np.full(len(data), float(field))
-    finite = quantity == "M" or bool(np.any(B > 0))
-    if quantity == "M" and np.all(B == 0):
+    if data.quantity == "M" and np.all(B == 0):
         raise InputError(f"{data.source}: M data need a field: add a B column (tesla) or give the "
                          f"case's field a value")
-    if finite and quantity != "M" and np.any(B <= 0):
+    if data.quantity != "M" and np.any(B > 0) and np.any(B <= 0):
         raise InputError(f"{data.source}: chi measured in a field is M/B, so every field must be "
                          f"> 0; mixed zero and finite fields are not supported")
+    return B
+
+
+def _check_varied(case: Case, vary: Sequence[str], start: Mapping[sp.Symbol, sp.Expr]) -> None:
+    """Every varied name is a parameter of the case and has a start value."""
     missing = [v for v in vary if v not in case.symbols]
     if missing:
         known = ", ".join(case.symbols) or "none"
@@ -654,19 +676,19 @@ def fit_case(case: Case, data: DataTable, vary: Sequence[str], *,
     if no_start:
         raise InputError(f"--vary {no_start[0]}: no start value; give one in the case file or "
                          f"with --set {no_start[0]}=VALUE")
-    model = magnetometry_model(case, quantity, list(vary), values=values, finite_field=finite,
-                               budget=budget, progress=progress)
+
+
+def _least_squares(model: MagnetometryModel, data: DataTable, B: np.ndarray,
+                   start: Mapping[sp.Symbol, sp.Expr]):
+    """scipy's trust-region least squares of the weighted residuals, within the bounds."""
     varied = model.varied
-    x0 = np.array([float(start[s]) for s in varied])
-    lo, hi = _bounds(case, varied, model.entries)
-    x0 = np.clip(x0, lo, hi)
+    lo, hi = _bounds(model.case, varied, model.entries)
+    x0 = np.clip(np.array([float(start[s]) for s in varied]), lo, hi)
     sigma = np.array(data.sigma, dtype=float) if data.sigma is not None else np.ones(len(data))
     y = np.array(data.values, dtype=float)
     T = np.array(data.T, dtype=float)
-    count = [0]
 
     def residuals(theta):
-        count[0] += 1
         m, _ = model(theta, T, B)
         return (m - y) / sigma
 
@@ -674,27 +696,31 @@ def fit_case(case: Case, data: DataTable, vary: Sequence[str], *,
         _, jac = model(theta, T, B)
         return jac / sigma[:, None]
 
-    progress(f"fitting {', '.join(vary)} to {len(data)} points of {quantity}")
     with np.errstate(over="ignore", under="ignore"):
-        sol = scipy.optimize.least_squares(residuals, x0, jac=jacobian, bounds=(lo, hi),
-                                           method="trf", x_scale="jac",
-                                           max_nfev=MAX_EVALUATIONS)
-    J = sol.jac
+        return scipy.optimize.least_squares(residuals, x0, jac=jacobian, bounds=(lo, hi),
+                                            method="trf", x_scale="jac",
+                                            max_nfev=MAX_EVALUATIONS)
+
+
+def _fit_result(case: Case, data: DataTable, vary: tuple[str, ...], model: MagnetometryModel,
+                sol, start: Mapping[sp.Symbol, sp.Expr], fitted: np.ndarray, B: np.ndarray,
+                curve_points: int) -> FitResult:
+    """Errors, correlations and curves of a finished fit, as a :class:`FitResult`."""
+    varied = model.varied
     r = sol.fun
     chi2 = float(r @ r)
     dof = len(data) - len(varied)
-    cov = _covariance(J)
+    cov = _covariance(sol.jac)
     if data.sigma is None and dof > 0:
         cov = cov * (chi2 / dof)
     err = np.sqrt(np.clip(np.diag(cov), 0, None))
     with np.errstate(divide="ignore", invalid="ignore"):
         corr = cov / np.outer(err, err)
-    fitted, _ = model(sol.x, T, B)
     curves, x_name = _curves(model, sol.x, data, B, curve_points)
     fixed = tuple((p.name, float(start[p.symbol])) for p in case.parameters
                   if p.symbol not in set(varied) and p.symbol in start)
-    unit = UNITS[(quantity, mag.sample.system)]
-    return FitResult(case.name, data, quantity, unit, case.temperature_unit, tuple(vary),
+    unit = UNITS[(data.quantity, case.magnetism.sample.system)]
+    return FitResult(case.name, data, data.quantity, unit, case.temperature_unit, vary,
                      tuple(float(v) for v in sol.x), tuple(float(e) for e in err), corr, chi2,
                      dof, data.sigma is not None, fixed, bool(sol.success), str(sol.message),
                      int(sol.nfev), model.describe(), np.asarray(fitted), curves, x_name,

@@ -199,36 +199,7 @@ def _read_zeeman(reader, table: object, symbols, site_scope, energy_unit: str) -
     if not isinstance(gtab, dict) or not gtab:
         raise reader.fail("[zeeman] g", "expected a table of sites, e.g. g = { a = 2.0, b = \"g\" }",
                           reader.place(("zeeman",), "g"))
-    pairs: list[tuple[Site, GTensor]] = []
-    for sname, spec in gtab.items():
-        where = f"[zeeman] g {sname}"
-        place = reader.place(("zeeman", "g"), sname) or reader.place(("zeeman",), "g")
-        handle = site_scope.get(sname)
-        if handle is None:
-            known = ", ".join(n for n, h in site_scope.items() if isinstance(h, SpinSite)) or "none"
-            raise reader.fail(where, f"no site named '{sname}' (spin sites: {known})", place)
-        if not isinstance(handle, SpinSite):
-            raise reader.fail(where, f"site '{sname}' is not a spin; a g factor belongs to spin "
-                                     f"sites", place)
-        if isinstance(spec, dict):
-            extra = set(spec) - {"parallel", "perpendicular"}
-            if extra or len(spec) != 2:
-                raise reader.fail(where, "an axial g is { parallel = ..., perpendicular = ... }",
-                                  place)
-            value: object = {k: _scalar(reader, v, symbols, f"{where} {k}", place)
-                             for k, v in spec.items()}
-        elif isinstance(spec, list):
-            if len(spec) != 3 or any(not isinstance(r, list) or len(r) != 3 for r in spec):
-                raise reader.fail(where, "a g tensor is three rows of three entries, e.g. "
-                                         "[[2.0, 0, 0], [0, 2.0, 0], [0, 0, \"gz\"]]", place)
-            value = [[_scalar(reader, v, symbols, f"{where} [{i}][{j}]", place)
-                      for j, v in enumerate(r)] for i, r in enumerate(spec)]
-        else:
-            value = _scalar(reader, spec, symbols, where, place)
-        try:
-            pairs.append((handle.site, g_tensor(value, where=where)))
-        except InputError as err:
-            raise reader.fail(where, str(err), place) from None
+    pairs = [_site_g(reader, sname, spec, symbols, site_scope) for sname, spec in gtab.items()]
     if "field" not in table:
         raise reader.fail("[zeeman]", "missing key 'field': the field in tesla, a number or a "
                                       "parameter such as field = \"B\"", reader.place(("zeeman",)))
@@ -242,6 +213,38 @@ def _read_zeeman(reader, table: object, symbols, site_scope, energy_unit: str) -
                           reader.place(("zeeman",), "direction")) from None
     term = _zeeman_term({SpinSite(site): g for site, g in pairs}, field, direction, unit)
     return ZeemanSpec(tuple(pairs), field, direction, term)
+
+
+def _site_g(reader, sname: str, spec: object, symbols, site_scope) -> tuple[Site, GTensor]:
+    """The g tensor of one spin site of [zeeman] g: a scalar, an axial table or three rows."""
+    where = f"[zeeman] g {sname}"
+    place = reader.place(("zeeman", "g"), sname) or reader.place(("zeeman",), "g")
+    handle = site_scope.get(sname)
+    if handle is None:
+        known = ", ".join(n for n, h in site_scope.items() if isinstance(h, SpinSite)) or "none"
+        raise reader.fail(where, f"no site named '{sname}' (spin sites: {known})", place)
+    if not isinstance(handle, SpinSite):
+        raise reader.fail(where, f"site '{sname}' is not a spin; a g factor belongs to spin "
+                                 f"sites", place)
+    if isinstance(spec, dict):
+        extra = set(spec) - {"parallel", "perpendicular"}
+        if extra or len(spec) != 2:
+            raise reader.fail(where, "an axial g is { parallel = ..., perpendicular = ... }",
+                              place)
+        value: object = {k: _scalar(reader, v, symbols, f"{where} {k}", place)
+                         for k, v in spec.items()}
+    elif isinstance(spec, list):
+        if len(spec) != 3 or any(not isinstance(r, list) or len(r) != 3 for r in spec):
+            raise reader.fail(where, "a g tensor is three rows of three entries, e.g. "
+                                     "[[2.0, 0, 0], [0, 2.0, 0], [0, 0, \"gz\"]]", place)
+        value = [[_scalar(reader, v, symbols, f"{where} [{i}][{j}]", place)
+                  for j, v in enumerate(r)] for i, r in enumerate(spec)]
+    else:
+        value = _scalar(reader, spec, symbols, where, place)
+    try:
+        return handle.site, g_tensor(value, where=where)
+    except InputError as err:
+        raise reader.fail(where, str(err), place) from None
 
 
 def _zeeman_term(handles: dict[SpinSite, GTensor], field: sp.Expr,

@@ -405,30 +405,7 @@ class _Reader:
 
     # ------------------------------------------------------------ the file
     def read(self) -> Case:
-        deep = nesting_fault(self.text)
-        if deep is not None:
-            raise ParseError.at(self.text, deep, f"arrays and inline tables are nested more than "
-                                                 f"{MAX_CASE_DEPTH} levels deep; a case file "
-                                                 f"needs only a few (see docs/limits.md)",
-                                source=self.source)
-        try:
-            data = tomllib.loads(self.text)
-        except tomllib.TOMLDecodeError as err:
-            raise self.toml_error(err) from None
-        except RecursionError:
-            raise self.fail("", "the TOML structure is nested too deeply") from None
-        for key in data:
-            if key not in _TOP_KEYS:
-                where = f"top-level key '{key}'"
-                raise self.fail(where, f"unknown section{_nearest(key, _TOP_KEYS)}; sections: "
-                                       f"{', '.join(_TOP_KEYS)}",
-                                self.locator.table((key,)) or self.locator.key((), key))
-        for key in ("model", "sites"):
-            if key not in data:
-                raise self.fail("", f"missing section [{key}]")
-            if not isinstance(data[key], dict):
-                raise self.fail(f"[{key}]", f"expected a table, got {_type_name(data[key])}",
-                                self.locator.key((), key))
+        data = self.sections()
         model = data["model"]
         self.check_keys(model, _MODEL_KEYS, ("model",), "[model]")
         name = self.string(model, "name", ("model",), "[model]", default=self.default_name)
@@ -456,10 +433,49 @@ class _Reader:
         observables, obs_text = self.observables(data.get("observables", {}), scope)
         sector, sector_text = self.sector(data.get("sector"), scope)
         all_sites = [s for h in site_scope.values() for s in _sites_of(h)]
+        system = self.build_system(H, sector, observables, all_sites, name.strip(), parameters)
+        response_scope = dict(scope)
+        response_scope.update(observables)
+        responses = self.responses(data.get("response", []), response_scope, system)
+        return Case(name.strip(), description.strip(), self.source, system, tuple(parameters),
+                    tuple(sites), h_text, tuple(obs_text), tuple(sector_text), tuple(responses),
+                    energy_unit.strip(), magnetism,
+                    temperature_unit_name(temperature_unit.strip()) if temperature_unit else "K")
+
+    def sections(self) -> dict:
+        """The parsed TOML, with known top-level sections and the [model] and [sites] tables."""
+        deep = nesting_fault(self.text)
+        if deep is not None:
+            raise ParseError.at(self.text, deep, f"arrays and inline tables are nested more than "
+                                                 f"{MAX_CASE_DEPTH} levels deep; a case file "
+                                                 f"needs only a few (see docs/limits.md)",
+                                source=self.source)
         try:
-            system = System.build(H, sector=dict(sector), observables=dict(observables),
-                                  extra_sites=all_sites, name=name.strip(),
-                                  parameters=[p.symbol for p in parameters])
+            data = tomllib.loads(self.text)
+        except tomllib.TOMLDecodeError as err:
+            raise self.toml_error(err) from None
+        except RecursionError:
+            raise self.fail("", "the TOML structure is nested too deeply") from None
+        for key in data:
+            if key not in _TOP_KEYS:
+                where = f"top-level key '{key}'"
+                raise self.fail(where, f"unknown section{_nearest(key, _TOP_KEYS)}; sections: "
+                                       f"{', '.join(_TOP_KEYS)}",
+                                self.locator.table((key,)) or self.locator.key((), key))
+        for key in ("model", "sites"):
+            if key not in data:
+                raise self.fail("", f"missing section [{key}]")
+            if not isinstance(data[key], dict):
+                raise self.fail(f"[{key}]", f"expected a table, got {_type_name(data[key])}",
+                                self.locator.key((), key))
+        return data
+
+    def build_system(self, H, sector, observables, all_sites, name: str, parameters) -> System:
+        """The validated model; its errors point at [model] or [sector]."""
+        try:
+            return System.build(H, sector=dict(sector), observables=dict(observables),
+                                extra_sites=all_sites, name=name,
+                                parameters=[p.symbol for p in parameters])
         except NotHermitianError as err:
             raise self.fail("[model] hamiltonian", f"{err} In a case file, add the conjugate "
                                                    f"terms with adj(...).",
@@ -470,13 +486,6 @@ class _Reader:
             if sector and "sector" in str(err):
                 raise self.fail("[sector]", str(err), self.place(("sector",))) from None
             raise self.fail("[model]", str(err), self.place(("model",))) from None
-        response_scope = dict(scope)
-        response_scope.update(observables)
-        responses = self.responses(data.get("response", []), response_scope, system)
-        return Case(name.strip(), description.strip(), self.source, system, tuple(parameters),
-                    tuple(sites), h_text, tuple(obs_text), tuple(sector_text), tuple(responses),
-                    energy_unit.strip(), magnetism,
-                    temperature_unit_name(temperature_unit.strip()) if temperature_unit else "K")
 
     def toml_error(self, err: tomllib.TOMLDecodeError) -> ParseError:
         msg = str(err)

@@ -158,18 +158,10 @@ def _case_parent(common: argparse.ArgumentParser, response_help: str) -> argpars
 
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``symresp`` command."""
-    common = argparse.ArgumentParser(add_help=False)
-    common.add_argument("--quiet", "-q", action="store_true",
-                        help="do not print progress stages on stderr")
-    common.add_argument("--debug", action="store_true",
-                        help="show the Python traceback of an internal error")
-    common.add_argument("--set", action="append", metavar="NAME=VALUE",
-                        help="give parameter NAME the exact value VALUE (repeatable); the model "
-                             "then has the number in place of the name")
+    common = _common_parent()
     with_case = _case_parent(common, "only the response with this label (default: all)")
     one_response = _case_parent(common, "the response to compare with; needed when the case has "
                                         "several (not for --quantity partition)")
-
     parser = argparse.ArgumentParser(
         prog="symresp",
         description="Closed-form linear-response (Kubo) susceptibilities of small quantum models, "
@@ -178,12 +170,46 @@ def build_parser() -> argparse.ArgumentParser:
                "cases/ directory of symresp. See docs/command-line.md.")
     parser.add_argument("--version", action="version", version=f"symresp {_VERSION}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    _add_list(sub, common)
+    _add_derive(sub, with_case)
+    _add_verify(sub, with_case)
+    _add_check(sub, one_response)
+    _add_consistency(sub, with_case)
+    _add_plot(sub, with_case)
+    _add_emit(sub, with_case)
+    add_fit_parser(sub, common, _positive_float)
+    add_resonance_parser(sub, common, _positive_float)
+    _add_batch(sub, common)
+    return parser
 
+
+def _common_parent() -> argparse.ArgumentParser:
+    """Options of every command: --quiet, --debug, --set."""
+    common = argparse.ArgumentParser(add_help=False)
+    common.add_argument("--quiet", "-q", action="store_true",
+                        help="do not print progress stages on stderr")
+    common.add_argument("--debug", action="store_true",
+                        help="show the Python traceback of an internal error")
+    common.add_argument("--set", action="append", metavar="NAME=VALUE",
+                        help="give parameter NAME the exact value VALUE (repeatable); the model "
+                             "then has the number in place of the name")
+    return common
+
+
+def _add_seed(p: argparse.ArgumentParser) -> None:
+    """The --seed option of the commands that draw random points."""
+    p.add_argument("--seed", type=_seed, default=0, metavar="S",
+                   help="seed of the random points (default 0)")
+
+
+def _add_list(sub, common: argparse.ArgumentParser) -> None:
     p = sub.add_parser("list", parents=[common], help="list the bundled cases",
                        description="List the bundled cases with one-line descriptions.")
     p.add_argument("--paths", action="store_true", help="also print the file of each case")
     p.set_defaults(run=_cmd_list)
 
+
+def _add_derive(sub, with_case: argparse.ArgumentParser) -> None:
     p = sub.add_parser("derive", parents=[with_case], help="derive and print the response formulas",
                        description="Derive levels, transitions, Z and the requested "
                                    "susceptibilities of a case and print them.")
@@ -198,6 +224,8 @@ def build_parser() -> argparse.ArgumentParser:
                      help="print the LaTeX body alone, for \\input into a paper")
     p.set_defaults(run=_cmd_derive)
 
+
+def _add_verify(sub, with_case: argparse.ArgumentParser) -> None:
     p = sub.add_parser("verify", parents=[with_case],
                        help="compare every derived quantity with exact diagonalisation",
                        description="Evaluate every derived quantity at random parameter points "
@@ -205,10 +233,11 @@ def build_parser() -> argparse.ArgumentParser:
                                    "diagonalisation; exit status 1 on any mismatch.")
     p.add_argument("--points", type=_count, default=3, metavar="N",
                    help="number of random points (1-100, default 3)")
-    p.add_argument("--seed", type=_seed, default=0, metavar="S",
-                   help="seed of the random points (default 0)")
+    _add_seed(p)
     p.set_defaults(run=_cmd_verify)
 
+
+def _add_check(sub, one_response: argparse.ArgumentParser) -> None:
     p = sub.add_parser("check", parents=[one_response],
                        help="compare a hand-derived formula with the derived one",
                        description="Compare a hand-derived formula with the derived quantity at "
@@ -231,10 +260,11 @@ def build_parser() -> argparse.ArgumentParser:
                         f"isothermal)")
     p.add_argument("--samples", type=_whole_number(3, 100), default=9, metavar="N",
                    help="number of random points (3-100, default 9)")
-    p.add_argument("--seed", type=_seed, default=0, metavar="S",
-                   help="seed of the random points (default 0)")
+    _add_seed(p)
     p.set_defaults(run=_cmd_check)
 
+
+def _add_consistency(sub, with_case: argparse.ArgumentParser) -> None:
     p = sub.add_parser("consistency", parents=[with_case],
                        help="run the physical consistency checks of each response",
                        description="Run every consistency check that applies to each response "
@@ -245,10 +275,11 @@ def build_parser() -> argparse.ArgumentParser:
                                    "fails.")
     p.add_argument("--points", type=_whole_number(1, 50), default=3, metavar="N",
                    help="number of random points (1-50, default 3)")
-    p.add_argument("--seed", type=_seed, default=0, metavar="S",
-                   help="seed of the random points (default 0)")
+    _add_seed(p)
     p.set_defaults(run=_cmd_consistency)
 
+
+def _add_plot(sub, with_case: argparse.ArgumentParser) -> None:
     p = sub.add_parser("plot", parents=[with_case],
                        help="draw the pictures of each response (PNG or SVG)",
                        description="Draw, for each response at the default parameter values of "
@@ -282,6 +313,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="also draw the levels against parameter NAME from START to STOP")
     p.set_defaults(run=_cmd_plot)
 
+
+def _add_emit(sub, with_case: argparse.ArgumentParser) -> None:
     p = sub.add_parser("emit", parents=[with_case],
                        help="write a standalone numpy evaluator module",
                        description="Write the standalone numpy evaluator of one response to a "
@@ -291,9 +324,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="overwrite FILE if it exists (never the case file)")
     p.set_defaults(run=_cmd_emit)
 
-    add_fit_parser(sub, common, _positive_float)
-    add_resonance_parser(sub, common, _positive_float)
 
+def _add_batch(sub, common: argparse.ArgumentParser) -> None:
     p = sub.add_parser("batch", parents=[common],
                        help="derive every response of many case files in parallel",
                        description="Derive every response of every case file, one task per "
@@ -318,7 +350,6 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--force", action="store_true",
                    help="derive again even the results that are fresh")
     p.set_defaults(run=_cmd_batch)
-    return parser
 
 
 def main(argv: Sequence[str] | None = None) -> int:
