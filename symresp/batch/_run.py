@@ -226,7 +226,7 @@ def _run(store: Store, names: Sequence[str], *, scheduler: str | None, workers: 
 
 
 def _cluster_module():
-    """The dask executor, imported on first use (dask is optional; see docs/deviations.md)."""
+    """The dask executor, imported on first use (dask is optional; see DEVELOPERS.md)."""
     try:
         return importlib.import_module("symresp.batch._cluster")
     except ImportError as err:

@@ -11,7 +11,7 @@ starts one clock and runs its work inside ``with clock.running():``. Every step 
 in any layer, calls :func:`checkpoint` (or ``clock.check``) inside each loop that can grow;
 once the deadline has passed, that raises :class:`~symresp.errors.BudgetExceeded` naming the
 step and what to try. The running clock is found through a context variable, so the layers
-in between need no extra argument (see ``docs/deviations.md``); a clock started while another
+in between need no extra argument (see ``DEVELOPERS.md``); a clock started while another
 runs never ends later than the outer one.
 
 Two further mechanisms keep the promise that a run stops within 10 % (or 2 s) of its budget:
