@@ -207,6 +207,10 @@ def boltzmann_form(expr: sp.Expr, *, min_generators: int = 1) -> sp.Expr | None:
     plain = sp.Integer(1)              # the parts free of exponentials, cancelled together
     for poly, sign in ((n, 1), (d, -1)):
         content, factors = sp.factor_list(poly, *us)
+        if content.has(*us):
+            # sympy leaves a polynomial with irrational coefficients (sqrt(2) of a level)
+            # unfactored and returns it whole as the content: it is one factor.
+            content, factors = sp.Integer(1), [(content, 1), *factors]
         plain *= content**sign
         for F, k in factors:
             if F.has(*us):

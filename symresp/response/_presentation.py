@@ -238,19 +238,21 @@ def _implicit(expr: sp.Expr, roots: frozenset = frozenset()) -> bool:
     return expr.has(sp.CRootOf, LevelRoot) or bool(roots and expr.free_symbols & roots)
 
 
-def _same(a: sp.Expr, b: sp.Expr, point: dict, roots: dict | None = None) -> bool:
+def _same(a: sp.Expr, b: sp.Expr, point: dict, roots: dict | None = None,
+          names: dict | None = None) -> bool:
     """Exact equality of two weights; numeric at 30 digits for the (large) weights of
-    semi-closed blocks (``roots`` maps the names of implicit roots back to the roots), where
+    semi-closed blocks (``roots`` maps the names of implicit roots back to the roots, ``names``
+    the other names of the where-list, radicals and constants, back to their values), where
     expanding would cost far more than it decides."""
     if a == b:
         return True
-    names = frozenset(roots or ())
-    if not (_implicit(a, names) or _implicit(b, names)):
+    if not (_implicit(a, frozenset(roots or ())) or _implicit(b, frozenset(roots or ()))):
         return _equal_weights(a, b)
-    diff = (a - b).xreplace(roots or {})
+    back = {**(names or {}), **(roots or {})}
+    diff = (a - b).xreplace(back)
     shifted = {k: v + sp.Rational(1, 7) for k, v in point.items()}
     values = [complex(sp.N(diff.subs(pt), 30)) for pt in (point, shifted)]
-    scale = max(1.0, abs(complex(sp.N(a.xreplace(roots or {}).subs(point), 30))))
+    scale = max(1.0, abs(complex(sp.N(a.xreplace(back).subs(point), 30))))
     return all(abs(v) <= 1e-20 * scale for v in values)
 
 
@@ -417,6 +419,12 @@ class _Builder:
                 return ratio * k
         return None
 
+    def name_values(self) -> dict[sp.Symbol, sp.Expr]:
+        """The radicals and constants of the where-list: name -> value."""
+        out: dict[sp.Symbol, sp.Expr] = {k: r for r, k in self.constants.items()}
+        out.update({R: sp.sqrt(X) for X, R in self.radicals.items()})
+        return out
+
     def named(self, expr: sp.Expr) -> sp.Expr:
         """``expr`` with implicit roots, radicals and long constants replaced by their names."""
         expr = sp.sympify(expr)  # safe: a sympy object from the derivation
@@ -500,7 +508,8 @@ class _Builder:
             down = self.tidy(self.named(W.get((hi, lo), sp.Integer(0))))
             rows.append((lo, hi, TransitionRow(self.label[lo], self.label[hi], self.gap(lo, hi),
                                                up, down, _same(up, down, self.point,
-                                                                  self.root_values))))
+                                                                  self.root_values,
+                                                                  self.name_values()))))
         rows.sort(key=lambda r: (r[2].lower, r[2].upper))
         self.pairs = [(lo, hi, row) for lo, hi, row in rows]
         return [row for _, _, row in rows]
