@@ -85,6 +85,7 @@ def _run(tmp_path, monkeypatch, kills: int):
     return report, manifest, killed
 
 
+@pytest.mark.slow   # tens of seconds; CI runs it in the slow tier
 def test_a_killed_workers_task_is_retried_on_another_worker(tmp_path, monkeypatch):
     report, manifest, killed = _run(tmp_path, monkeypatch, kills=1)
     status = {r.key: r.status for r in report.rows}

@@ -190,6 +190,7 @@ def test_doctests_of_the_public_objects_run():
             assert doctest.DocTestRunner().run(test).failed == 0, test.name
 
 
+@pytest.mark.slow   # tens of seconds; CI runs it in the slow tier
 def test_consistency_and_hand_check_work_with_parametric_implicit_levels():
     # Spin 1, axial D, tilted field: the levels are roots of a cubic in three parameters.
     D, hz, hx = (sp.Symbol(n, positive=True) for n in ("D", "hz", "hx"))
