@@ -221,6 +221,24 @@ def test_hermitian_pole_pairs_are_merged():
     assert len(sp.Add.make_args(sp.together(f).as_numer_denom()[1])) <= 2
 
 
+def test_implicit_and_radical_levels_with_unequal_weights_present_and_evaluate():
+    # A cubic block (implicit roots r1_k) beside a 2x2 block with levels -+R, R = sqrt(g^2 + h^2);
+    # W_ij and W_ji differ (B complex), so they are compared at numbers, radicals included.
+    s = sr.nlevel("s", 5)
+    g, hh = sp.Symbol("g", positive=True), sp.Symbol("hh", positive=True)
+    H = (s.op(0, 1) + s.op(1, 0) + s.op(1, 2) + s.op(2, 1) + 2 * s.op(0, 0) - s.op(2, 2)
+         + hh * (s.op(3, 3) - s.op(4, 4)) + g * (s.op(3, 4) + s.op(4, 3)))
+    A = s.op(0, 3) + s.op(3, 0) + s.op(1, 4) + s.op(4, 1)
+    B = sp.I * (s.op(0, 4) - s.op(4, 0)) + s.op(2, 3) + s.op(3, 2)
+    r = sr.Model(H).response(A, B)
+    p = present_response(r.derivation, ("isothermal",))
+    assert any(not row.symmetric for row in p.transitions)
+    ref = r.reference(params={"g": 0.7, "hh": 1.3}, T=0.9).isothermal
+    got = complex(sp.N(p.value("isothermal").subs({g: sp.Rational(7, 10), hh: sp.Rational(13, 10),
+                                                   beta: 1 / sp.Rational(9, 10)}), 30))
+    assert abs(got - ref) <= 1e-9 * max(1.0, abs(ref))
+
+
 def test_population_form_takes_over_where_closed_forms_are_long():
     # Six-site wheel: the closed forms run to 1e5 characters; the presentation stays short.
     from symresp.cases import derive_case, find_case, present_case, read_case
