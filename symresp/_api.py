@@ -25,7 +25,8 @@ from .errors import InputError
 from .models import Budget, System
 from ._evaluation import evaluate_at, numeric_params, reference_at
 from ._display import latex_block, picture, results_section, summary_text
-from .response import Derivation, Level, Presentation, Quantity, StaticKind, Transition, derive
+from .response import (Derivation, Level, MotionDerivation, Presentation, Quantity, Route,
+                       StaticKind, Transition, derive, respond)
 
 __all__ = ["Model", "Response", "load_case"]
 
@@ -200,7 +201,8 @@ class Model:
         return derive(self._system, zero, zero, budget=budget).levels
 
     def response(self, A: object, B: object | None = None, *,
-                 convention: Convention = DEFAULT_CONVENTION, budget: Budget = Budget()) -> Response:
+                 convention: Convention = DEFAULT_CONVENTION, budget: Budget = Budget(),
+                 route: Route = "auto") -> Response:
         r"""Derive :math:`\chi_{AB}`: measure ``A``, drive ``B`` (default ``B = A``).
 
         Parameters
@@ -211,6 +213,14 @@ class Model:
             Sign conventions (default: the pinned one of ``docs/conventions.md``).
         budget : Budget
             Limits on the expensive steps.
+        route : {"auto", "lehmann", "motion"}
+            ``"lehmann"``: exact diagonalisation and Lehmann sums (a boson mode is truncated at
+            its cutoff; the result records which levels the cutoff touches and an estimate
+            of the truncation error). ``"motion"``: the equations of motion of A and B, where
+            they close on a finite operator space (exact, no cutoff, no level spectrum).
+            ``"auto"``: ``"motion"`` for models with boson modes where it applies, else
+            ``"lehmann"``. :meth:`Response.summary` names the route taken; see
+            docs/routes.md.
 
         Returns
         -------
@@ -230,7 +240,8 @@ class Model:
             raise InputError(f"response: budget={budget!r} must be a symresp.models.Budget")
         Aop = self._system.operator(A, role="response A")
         Bop = self._system.operator(A if B is None else B, role="response B")
-        return Response(derive(self._system, Aop, Bop, convention=convention, budget=budget))
+        return Response(respond(self._system, Aop, Bop, route=route, convention=convention,
+                                budget=budget))
 
     def __repr__(self) -> str:
         sites = ", ".join(repr(s) for s in self.sites)
@@ -259,7 +270,7 @@ class Response:
     __slots__ = ("_d",)
 
     def __init__(self, derivation: Derivation) -> None:
-        if not isinstance(derivation, Derivation):
+        if not isinstance(derivation, (Derivation, MotionDerivation)):
             raise InputError("Response: build responses with Model.response(A, B)")
         self._d = derivation
 
@@ -268,8 +279,9 @@ class Response:
         return self._d.budget.start().running()
 
     @property
-    def derivation(self) -> Derivation:
-        """The underlying derivation (levels, weights, spectrum)."""
+    def derivation(self) -> Derivation | MotionDerivation:
+        """The underlying derivation (levels, weights, spectrum; or the closed operator space
+        of the equations-of-motion route)."""
         return self._d
 
     @property
@@ -640,6 +652,12 @@ class Response:
         with self._budgeted():
             return summary_text(self._d)
 
+    @property
+    def route(self) -> str:
+        """The route taken: ``"lehmann"`` (exact diagonalisation) or ``"motion"`` (equations of
+        motion on a closed operator space); see :meth:`Model.response`."""
+        return self._d.route
+
     def latex(self) -> str:
         r"""LaTeX (aligned) block with Z, the static susceptibilities and :math:`\chi(\omega)`.
 
@@ -657,7 +675,10 @@ class Response:
         return "$$" + self.latex() + "$$"
 
     def __repr__(self) -> str:
-        return f"Response(A={describe(self._d.A)}, B={describe(self._d.B)}, levels={len(self._d.levels)})"
+        d = self._d
+        size = (f"operators={d.space.dimension}" if isinstance(d, MotionDerivation)
+                else f"levels={len(d.levels)}")
+        return f"Response(A={describe(d.A)}, B={describe(d.B)}, route={d.route}, {size})"
 
 
 @public

@@ -20,7 +20,7 @@ from .emit import (draw_levels, draw_map, draw_spectrum, draw_static, draw_sweep
                    level_sweep, save_figure, spectral_map, spectrum, static_curves)
 from .errors import InputError
 from .models import Budget
-from .response import Derivation, Presentation, present_response
+from .response import Derivation, MotionDerivation, Presentation, present_response
 
 __all__ = ["summary_text", "latex_block", "results_section", "picture", "PICTURES"]
 
@@ -28,12 +28,21 @@ __all__ = ["summary_text", "latex_block", "results_section", "picture", "PICTURE
 PICTURES = ("levels", "sweep", "spectrum", "map", "static")
 
 
-def summary_text(d: Derivation) -> str:
-    """A readable derivation summary: levels, transitions, Z, static and dynamic chi."""
+def summary_text(d: Derivation | MotionDerivation) -> str:
+    """A readable derivation summary: the route taken, levels, transitions, Z, static and
+    dynamic chi (poles instead of levels on the equations-of-motion route)."""
     lines = [f"Linear response chi_AB of model {d.system.name!r}",
              f"  A = {describe(d.A)}", f"  B = {describe(d.B)}",
              f"  convention: {d.convention.describe()}",
-             f"  blocks: {d.spectrum.describe()}", "", "Levels (E, degeneracy, quantum numbers):"]
+             f"  route: {d.describe_route()}"]
+    if isinstance(d, MotionDerivation):
+        lines += ["", "Poles (Omega, weight):"]
+        lines += [f"  Omega = {sp.sstr(Om)}, w = {sp.sstr(w)}" for Om, w in d.poles()] or ["  none"]
+        lines += ["", f"chi_isothermal = {sp.sstr(d.static('isothermal'))}",
+                  f"chi_isolated   = {sp.sstr(d.static('isolated'))}",
+                  f"chi(omega)     = {sp.sstr(d.frequency(omega))}"]
+        return "\n".join(lines)
+    lines += [f"  blocks: {d.spectrum.describe()}", "", "Levels (E, degeneracy, quantum numbers):"]
     for lv in d.levels:
         qn = "; ".join(", ".join(f"{n}={v}" for n, v in lab) for lab in lv.quantum_numbers)
         lines.append(f"  E = {sp.sstr(lv.energy):<30} g = {lv.degeneracy:<3} {qn}")
@@ -50,10 +59,10 @@ def summary_text(d: Derivation) -> str:
     return "\n".join(lines)
 
 
-def latex_block(d: Derivation) -> str:
+def latex_block(d: Derivation | MotionDerivation) -> str:
     r"""LaTeX (aligned) block with Z, the static susceptibilities and :math:`\chi(\omega)`."""
-    rows = [("Z", d.partition()),
-            (r"\chi^{T}_{AB}", d.static("isothermal")),
+    rows = [] if isinstance(d, MotionDerivation) else [("Z", d.partition())]
+    rows += [(r"\chi^{T}_{AB}", d.static("isothermal")),
             (r"\chi^{\mathrm{isol}}_{AB}", d.static("isolated")),
             (r"\chi_{AB}(\omega)", d.frequency(omega))]
     body = " \\\\\n".join(f"{k} &= {sp.latex(v)}" for k, v in rows)

@@ -76,12 +76,24 @@ class OperatorSpace:
         return sp.Matrix(self.liouvillian) if self.basis else sp.zeros(0, 0)
 
 
-def _reduce(vec: dict[Monomial, sp.Expr], basis: list[dict], pivots: list[Monomial]
-            ) -> tuple[dict[Monomial, sp.Expr], list[sp.Expr]]:
+def _symbols(X: Operator) -> set:
+    return set().union(*[sp.sympify(c).free_symbols for _, c in X.terms])  # safe: sympy coefficients
+
+
+def _at(X: Operator, point: dict) -> Operator:
+    """``X`` with its parameters set to the numbers of ``point``."""
+    return Operator._from_dict({m: sp.sympify(c).xreplace(point) for m, c in X.terms},  # safe: sympy coefficients
+                               X.sites)
+
+
+def _reduce(vec: dict[Monomial, sp.Expr], basis: list[dict], pivots: list[Monomial],
+            check: Callable[[], None] | None = None) -> tuple[dict[Monomial, sp.Expr], list[sp.Expr]]:
     """Remainder of ``vec`` after elimination against the echelon basis, and the multiples."""
     v = dict(vec)
     coeffs = []
     for b, p in zip(basis, pivots):
+        if check is not None:
+            check()
         c = v.get(p, sp.Integer(0))
         c = _tidy(c) if c != 0 else c
         coeffs.append(c)
@@ -138,9 +150,20 @@ def close_under(H: Operator, seeds: Iterable[object], *, max_dimension: int = MA
     True
     """
     H = as_operator(H)
+    seeds = [as_operator(s) for s in seeds]
+    symbols = set().union(*[_symbols(X) for X in (H, *seeds)])
+    if symbols:
+        # Screen at a generic rational point first (fast, exact arithmetic over QQ): the
+        # dimension of the space can only drop when parameters take values, so a space that
+        # does not close there does not close for symbolic parameters either.
+        point = {x: sp.Rational(2 * k + 3, 7 + k) for k, x in enumerate(sorted(symbols, key=str))}
+        screened, reason = close_under(_at(H, point), [_at(X, point) for X in seeds],
+                                       max_dimension=max_dimension,
+                                       max_commutators=max_commutators, check=check)
+        if screened is None:
+            return None, reason
     queue: list[Operator] = []
     for s in seeds:
-        s = as_operator(s)
         queue += [s, dagger(s)]
     basis: list[dict] = []
     pivots: list[Monomial] = []
@@ -149,7 +172,7 @@ def close_under(H: Operator, seeds: Iterable[object], *, max_dimension: int = MA
     taken = 0
     while queue:
         X = queue.pop(0)
-        rest, _ = _reduce(dict(X.terms), basis, pivots)
+        rest, _ = _reduce(dict(X.terms), basis, pivots, check)
         if not rest:
             continue
         if len(basis) >= max_dimension:

@@ -293,8 +293,10 @@ def _header(d, kind: str, fp: str, version: str, name: str, names: tuple[str, ..
     ])
 
 
-def _parameters(symbols) -> tuple[tuple[sp.Symbol, ...], dict]:
-    original = tuple(sorted(symbols, key=lambda s: s.name))
+def _parameters(symbols, declared) -> tuple[tuple[sp.Symbol, ...], dict]:
+    """The parameters in their declared order (the model's), any others after them by name."""
+    rank = {p: k for k, p in enumerate(declared)}
+    original = tuple(sorted(symbols, key=lambda s: (rank.get(s, len(rank)), s.name)))
     safe = _safe_names(original)
     return safe, dict(zip(original, safe))
 
@@ -338,7 +340,7 @@ def ladder_module_source(d: Derivation, *, version: str, name: str | None = None
     symbols = set(d.system.parameters)
     for e in exprs:
         symbols |= sp.sympify(e).free_symbols - {nu}  # safe: sympy objects from a derivation
-    safe, rename = _parameters(symbols)
+    safe, rename = _parameters(symbols, d.system.parameters)
     nu_sym = sp.Symbol("ladder_n", real=True)  # the offset array of the generated code
     rename = dict(rename)
     rename[nu] = nu_sym
@@ -473,7 +475,7 @@ def motion_module_source(d: MotionDerivation, *, version: str, name: str | None 
     symbols = set(d.system.parameters)
     for e in exprs:
         symbols |= sp.sympify(e).free_symbols - {beta}  # safe: sympy objects from a derivation
-    safe, rename = _parameters(symbols)
+    safe, rename = _parameters(symbols, d.system.parameters)
     bsym = beta
     rename = dict(rename)
     rename[beta] = bsym
@@ -485,11 +487,11 @@ def motion_module_source(d: MotionDerivation, *, version: str, name: str | None 
             f"    return ({_code(s * iso, rename)}) + 0 * beta",
             "", "", "def _jacobian(beta, _ps, _kind):", unpack,
             "    if _kind == 'isothermal':"]
-    for e in (iso_T, iso):
+    for first, e in ((True, iso_T), (False, iso)):   # iso_T may be the same object as iso
         ee = (s * e).xreplace(rename)
         ders = [sp.diff(ee, x) for x in safe]
         body.append("        return [" + ", ".join(f"({_code(x, {})}) + 0 * beta" for x in ders) + "]")
-        if e is iso_T:
+        if first:
             body.append("    else:")
     body += ["", "", "def _poles(beta, _ps):", unpack,
              "    freq = [" + ", ".join(f"({_code(Om, rename)}) + 0 * beta" for Om, _ in poles) + "]",

@@ -59,7 +59,7 @@ from sympy.polys.matrices import DomainMatrix
 
 from ..algebra import Operator, OperatorSpace, close_under, commutator, coordinates, site_kind
 from ..conventions import DEFAULT_CONVENTION, Convention, beta, nu, omega, t
-from ..errors import InputError
+from ..errors import ClosedFormError, InputError
 from ..models import Budget, Clock, System
 from ..spectrum import clean
 from ._derive import StaticKind, derive, present
@@ -139,6 +139,7 @@ class MotionDerivation:
     kernel_A: Operator                                 # A_0
     kernel_B: Operator
     gibbs: str                                         # how the Gibbs averages were obtained
+    budget: Budget = Budget()                          # the limits of every later call on it
     _memo: dict = field(default_factory=dict, compare=False, repr=False)
 
     route = "motion"
@@ -176,15 +177,53 @@ class MotionDerivation:
         r"""Lines of :math:`\chi''(\omega) = \pi\sum_k w_k\delta(\omega - \Omega_k)` as (position, strength)."""
         return [(Om, sp.pi * w) for Om, w in self.poles()]
 
-    def correlation_lines(self) -> list[tuple[sp.Expr, sp.Expr]]:
-        r"""Lines of :math:`S_{AB}(\omega) = 2\pi\sum_k s_k\delta(\omega - \Omega_k)` (pinned convention):
-        :math:`s_k = w_k/(1 - e^{-\beta\Omega_k})` and the elastic line :math:`s_0 = \langle A_0B_0\rangle`."""
+    def correlation_lines(self, kind: Literal["plain", "symmetrised", "canonical"] = "plain"
+                          ) -> list[tuple[sp.Expr, sp.Expr]]:
+        r"""Lines of :math:`S_{AB}(\omega) = 2\pi\sum_k s_k\delta(\omega - \Omega_k)` (pinned convention,
+        docs/conventions.md section 9) from detailed balance: plain
+        :math:`s_k = w_k/(1 - e^{-\beta\Omega_k})`, symmetrised
+        :math:`\tfrac12 w_k\coth(\beta\Omega_k/2)`, canonical :math:`w_k/(\beta\Omega_k)`; the
+        elastic line :math:`s_0 = \langle A_0B_0\rangle` in every kind."""
+        if kind not in ("plain", "symmetrised", "canonical"):
+            raise InputError(f"correlation_lines: kind={kind!r} must be 'plain', 'symmetrised' "
+                             "or 'canonical'")
         out = []
         if self.elastic != 0:
             out.append((sp.Integer(0), self.elastic))
         for Om, w in self._raw_poles():
-            out.append((Om, present(w / (1 - sp.exp(-beta * Om)))))
+            if kind == "plain":
+                s_k = w / (1 - sp.exp(-beta * Om))
+            elif kind == "symmetrised":
+                s_k = w * (1 + sp.exp(-beta * Om)) / (2 * (1 - sp.exp(-beta * Om)))
+            else:
+                s_k = w / (beta * Om)
+            out.append((Om, present(s_k)))
         return out
+
+    # ------------------------------------------------------------ no level spectrum
+    def _no_levels(self, what: str) -> ClosedFormError:
+        return ClosedFormError(
+            f"{what}: the equations-of-motion route has no level spectrum (its result is exact "
+            f"without one); derive with route='lehmann' for levels, transitions, Z and the "
+            f"pictures and checks that use them")
+
+    @property
+    def levels(self):
+        """Not available on this route (raises :class:`symresp.errors.ClosedFormError`)."""
+        raise self._no_levels("levels")
+
+    @property
+    def spectrum(self):
+        """Not available on this route (raises :class:`symresp.errors.ClosedFormError`)."""
+        raise self._no_levels("spectrum")
+
+    def transitions(self):
+        """Not available on this route (raises :class:`symresp.errors.ClosedFormError`)."""
+        raise self._no_levels("transitions")
+
+    def partition(self):
+        """Not available on this route (raises :class:`symresp.errors.ClosedFormError`)."""
+        raise self._no_levels("partition function")
 
     # ------------------------------------------------------------ static
     def static(self, kind: StaticKind = "isothermal") -> sp.Expr:
@@ -472,5 +511,5 @@ def derive_motion(system: System, A: Operator, B: Operator, *,
     how = ("the weights are c-numbers (no temperature dependence)"
            if not gibbs.used else "Gibbs averages from the exact spectrum of H")
     out = MotionDerivation(system, A, B, convention, space, tuple(singles), tuple(pairs), isolated,
-                           sp.factor(elastic), sp.factor(mean_A), sp.factor(mean_B), A0, B0, how)
+                           sp.factor(elastic), sp.factor(mean_A), sp.factor(mean_B), A0, B0, how, budget)
     return out, ""

@@ -106,7 +106,7 @@ class Truncation:
             return (f"boson cutoff ({modes}): no level is touched by it (H, A and B stay below "
                     f"the cutoff from every state)")
         return (f"boson cutoff ({modes}): {len(self.level_weights)} of {len(self.derivation.levels)} "
-                f"levels touched ({self.edge_states} edge states from which H, A or B would go "
+                f"levels touched ({self.edge_states} edge state{'s' if self.edge_states != 1 else ''} from which H, A or B would go "
                 f"above it); truncation error ~ the Gibbs weight of the edge states, "
                 f"eps(T) = sum_a d_a p_a w_a")
 

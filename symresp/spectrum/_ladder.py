@@ -52,7 +52,7 @@ MIN_MEMBERS = 4
 #: Largest block of a ladder (the generic solution needs explicit roots).
 MAX_LADDER_BLOCK = 4
 #: Fewest blocks in a model before ladders are looked for (small models: block by block).
-MIN_BLOCKS = 12
+MIN_BLOCKS = 6
 
 _x = sp.Symbol("x__ladder")
 
