@@ -898,6 +898,9 @@ def _present(d: Derivation, qs: tuple[str, ...], point: dict | None, clock: Cloc
                  d.levels[a].quantum_numbers, _level_marks(d, a))
         for a in b.order)
     qn = tuple((q.name, q.definition) for q in d.spectrum.structure.quantum_numbers)
+    truncation = getattr(d, "truncation", None)
+    if truncation is not None and truncation.level_weights:
+        b.notes.append("levels marked [cutoff] are touched by the " + truncation.describe())
     order = [(iso_sym, 0)] + [(b.p[a], b.label[a]) for a in b.order]
     order += [(b.x[a], b.label[a]) for a in b.order]
     for g in poles.groups:
@@ -921,4 +924,7 @@ def _level_marks(d: Derivation, a: int) -> tuple[str, ...]:
     marks = []
     if d.levels[a].implicit:
         marks.append("implicit root")
+    truncation = getattr(d, "truncation", None)
+    if truncation is not None and a in truncation.level_weights:
+        marks.append("cutoff")
     return tuple(marks)
