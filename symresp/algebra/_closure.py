@@ -77,12 +77,12 @@ class OperatorSpace:
 
 
 def _symbols(X: Operator) -> set:
-    return set().union(*[sp.sympify(c).free_symbols for _, c in X.terms])  # safe: sympy coefficients
+    return set().union(*[c.free_symbols for _, c in X.terms])
 
 
 def _at(X: Operator, point: dict) -> Operator:
     """``X`` with its parameters set to the numbers of ``point``."""
-    return Operator._from_dict({m: sp.sympify(c).xreplace(point) for m, c in X.terms},  # safe: sympy coefficients
+    return Operator._from_dict({m: c.xreplace(point) for m, c in X.terms},
                                X.sites)
 
 
