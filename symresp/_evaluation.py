@@ -53,14 +53,24 @@ def _exact(value: float) -> sp.Rational:
     return exact_decimal(value)
 
 
-def numeric_params(system: System, params: Mapping | None) -> dict[sp.Symbol, complex]:
-    """``params`` (names or symbols to Python numbers) as a checked mapping symbol -> complex."""
+def response_parameters(d) -> tuple[sp.Symbol, ...]:
+    """The model's parameters, then those that appear only in A or B (by name)."""
+    extra = set().union(*[c.free_symbols for X in (d.A, d.B) for _, c in X.terms])
+    extra -= set(d.system.parameters)
+    return tuple(d.system.parameters) + tuple(sorted(extra, key=lambda x: x.name))
+
+
+def numeric_params(system: System, params: Mapping | None,
+                   parameters: tuple[sp.Symbol, ...] | None = None) -> dict[sp.Symbol, complex]:
+    """``params`` (names or symbols to Python numbers) as a checked mapping symbol -> complex;
+    ``parameters`` are the accepted symbols (default: the model's)."""
     out: dict[sp.Symbol, complex] = {}
     if params is not None and not isinstance(params, Mapping):
         raise InputError(f"params={params!r} must be a mapping {{name: number}}")
-    by_name = {p.name: p for p in system.parameters}
+    known_symbols = tuple(system.parameters) if parameters is None else parameters
+    by_name = {p.name: p for p in known_symbols}
     for k, v in (params or {}).items():
-        sym = by_name.get(k) if isinstance(k, str) else (k if k in system.parameters else None)
+        sym = by_name.get(k) if isinstance(k, str) else (k if k in known_symbols else None)
         if sym is None:
             known = ", ".join(by_name) or "none"
             raise InputError(f"params: unknown parameter {k!r} (model parameters: {known})")
@@ -80,7 +90,7 @@ def reference_at(d: Derivation, *, params: Mapping | None, T: object) -> numeric
     if not T_value > 0:
         raise InputError(f"reference: T={T!r} must be a positive finite number")
     system = d.system
-    p = numeric_params(system, params)
+    p = numeric_params(system, params, response_parameters(d))
     basis = system.basis()
     H = to_array(system.hamiltonian, basis, p)
     A = to_array(d.A, basis, p)
@@ -96,8 +106,9 @@ def evaluate_at(d: Derivation, quantity: str, *, params: Mapping | None, T: floa
                 omega_value: complex | None = None, time_value: float | None = None) -> complex:
     """Numeric value of one of the derivation's closed forms (30 digits, via sympy)."""
     system = d.system
-    p = numeric_params(system, params)
-    missing = set(system.parameters) - set(p)
+    accepted = response_parameters(d)
+    p = numeric_params(system, params, accepted)
+    missing = set(accepted) - set(p)
     check_quantity(quantity, CHECKED_QUANTITIES, "evaluate: quantity")
     expr = quantity_expression(d, quantity)
     missing &= expr.free_symbols

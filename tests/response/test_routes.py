@@ -208,3 +208,14 @@ def test_route_choice_errors_are_clear():
         model.response(q.x, route="motion")
     auto = model.response(q.x)
     assert "equations of motion not closed" in auto.summary()
+
+
+def test_parameters_that_appear_only_in_the_observable_take_values():
+    # m enters through A = x only; evaluate and reference accept it by name.
+    a, x = _oscillator(cutoff=30)
+    r = sr.Model(w * sr.dagger(a) * a).response(x, route="lehmann")
+    P = {"w": 1.0, "m": 0.5}
+    assert_close(r.evaluate("isothermal", params=P, T=0.5), 2.0, what="1/(m w^2)")
+    assert_close(r.reference(params=P, T=0.5).isothermal, 2.0, what="reference")
+    with pytest.raises(InputError, match="give values for m"):
+        r.evaluate("isothermal", params={"w": 1.0}, T=0.5)
