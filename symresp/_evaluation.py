@@ -48,6 +48,17 @@ def _real_number(value: object, what: str) -> float:
     return v
 
 
+def _complex_number(value: object, not_number: str, not_finite: str) -> complex:
+    """A finite (complex) number from Python code, as a complex; strings and other objects raise
+    InputError with the message ``not_number``, infinities and nan with ``not_finite``."""
+    if not _is_number(value, real=False):
+        raise InputError(not_number)
+    z = complex(value)
+    if not cmath.isfinite(z):
+        raise InputError(not_finite)
+    return z
+
+
 def _exact(value: float) -> sp.Rational:
     """The exact value of a number given as a float: the decimal it prints as."""
     return exact_decimal(value)
@@ -74,13 +85,10 @@ def numeric_params(system: System, params: Mapping | None,
         if sym is None:
             known = ", ".join(by_name) or "none"
             raise InputError(f"params: unknown parameter {k!r} (model parameters: {known})")
-        if not _is_number(v, real=False):
-            raise InputError(f"params: value {v!r} for {k} is not a number (give an int, float "
-                             f"or complex; text is never evaluated)")
-        val = complex(v)
-        if not cmath.isfinite(val):
-            raise InputError(f"params: value {v!r} for {k} is not finite")
-        out[sym] = val
+        out[sym] = _complex_number(
+            v, f"params: value {v!r} for {k} is not a number (give an int, float or complex; "
+               f"text is never evaluated)",
+            f"params: value {v!r} for {k} is not finite")
     return out
 
 
@@ -123,12 +131,10 @@ def evaluate_at(d: Derivation, quantity: str, *, params: Mapping | None, T: floa
     if quantity == "frequency":
         if omega_value is None:
             raise InputError("evaluate: give omega_value for the 'frequency' quantity")
-        if not _is_number(omega_value, real=False):
-            raise InputError(f"evaluate: omega_value={omega_value!r} must be a number (complex "
-                             f"allowed), not {type(omega_value).__name__}")
-        z = complex(omega_value)
-        if not cmath.isfinite(z):
-            raise InputError(f"evaluate: omega_value={omega_value!r} must be finite")
+        z = _complex_number(
+            omega_value, f"evaluate: omega_value={omega_value!r} must be a number (complex "
+                         f"allowed), not {type(omega_value).__name__}",
+            f"evaluate: omega_value={omega_value!r} must be finite")
         subs[omega] = _exact(z.real) + sp.I * _exact(z.imag)
     if quantity == "time":
         if time_value is None:

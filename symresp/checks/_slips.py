@@ -364,22 +364,27 @@ def _degeneracy_fit(c: _Comparison, values, zr, X) -> Slip | None:
     return "partition-degeneracy", "wrong partition function: your Z " + "; ".join(parts)
 
 
-def _solve_level(c: _Comparison, a: int, fit: list[_Sample]) -> mp.mpf | None:
-    """Energy of level ``a`` that makes ours reproduce the formula at every sample of ``fit``."""
+def _solve_energies(c: _Comparison, fit: list[_Sample], moved: Callable[[list, mp.mpf], list],
+                    origin: Callable[[list], mp.mpf]) -> mp.mpf | None:
+    """The value x for which the levels ``moved(E, x)`` make ours reproduce the formula at every
+    sample of ``fit`` (None if there is none); ``origin(E)`` is the x that leaves them as they are.
+
+    One real unknown, found by a secant search from starting points on both sides of the origin
+    at growing distances (multiples of the energy spread); the origin itself does not count.
+    """
     data = c.data(fit[0].params)
     E = list(data.energies)
     th = [c.eval_theirs(s) for s in fit]
     if any(v is None for v in th):
         return None
     spread = max(abs(e) for e in E) + 1
+    x0 = origin(E)
 
-    def with_level(eps, s):
-        energies = list(E)
-        energies[a] = eps
-        return c.eval_ours(s, energies=energies)
+    def ours(x, s):
+        return c.eval_ours(s, energies=moved(E, x))
 
-    def f(eps):
-        v = with_level(eps, fit[0])
+    def f(x):
+        v = ours(x, fit[0])
         if v is None:
             return mp.mpf(1e30)
         diff = v - th[0]
@@ -388,16 +393,43 @@ def _solve_level(c: _Comparison, a: int, fit: list[_Sample]) -> mp.mpf | None:
     sc = max([abs(v) for v in th] + [mp.mpf(1e-30)])
     for step in (0.5, -0.5, 1, -1, 2, -2, 4, -4):
         try:
-            eps = mp.findroot(f, E[a] + step * spread, verify=False)
+            x = mp.findroot(f, x0 + step * spread, verify=False)
         except (ValueError, ZeroDivisionError):
             continue
-        eps = mp.mpf(eps.real) if isinstance(eps, mp.mpc) else eps
-        if abs(eps - E[a]) < 1e-10 * spread:
+        x = mp.mpf(x.real) if isinstance(x, mp.mpc) else x
+        if abs(x - x0) < 1e-10 * spread:
             continue
-        vals = [with_level(eps, s) for s in fit]
+        vals = [ours(x, s) for s in fit]
         if all(v is not None and c.close(v, w, sc) for v, w in zip(vals, th)):
-            return eps
+            return x
     return None
+
+
+def _solve_level(c: _Comparison, a: int, fit: list[_Sample]) -> mp.mpf | None:
+    """Energy of level ``a`` that makes ours reproduce the formula at every sample of ``fit``."""
+
+    def with_level(E, eps):
+        energies = list(E)
+        energies[a] = eps
+        return energies
+
+    return _solve_energies(c, fit, with_level, lambda E: E[a])
+
+
+def _at_further_points(c: _Comparison, fit: list[_Sample], first: mp.mpf,
+                       solve: Callable[[list[_Sample]], mp.mpf | None]) -> list[tuple[dict, mp.mpf]]:
+    """``first`` (the solution at the parameters of ``fit``) and the solutions of ``solve`` at
+    further random parameter points with the same temperatures and frequencies, so that
+    :func:`_identify` can write the solution as a formula; stops at the first point without one.
+    """
+    found = [(fit[0].params, first)]
+    for _ in range(len(c.params) + 1):
+        params = draw_parameters(c.rng, c.params)
+        value = solve([_Sample(-1, params, s.beta, s.x, s.y, s.t) for s in fit])
+        if value is None:
+            break
+        found.append((params, value))
+    return found
 
 
 def _mean_product(c: _Comparison, s: _Sample) -> mp.mpc | None:
@@ -461,37 +493,20 @@ def _multiplets(c: _Comparison) -> list[tuple[int, ...]]:
 def _solve_shift(c: _Comparison, group: tuple[int, ...], fit: list[_Sample]) -> mp.mpf | None:
     """Common shift of the levels of ``group`` that makes ours reproduce the formula at every
     sample of ``fit`` (None if there is none)."""
-    data = c.data(fit[0].params)
-    E = list(data.energies)
-    th = [c.eval_theirs(s) for s in fit]
-    if any(v is None for v in th):
-        return None
-    spread = max(abs(e) for e in E) + 1
 
-    def shifted(delta, s):
-        energies = [e + delta if k in group else e for k, e in enumerate(E)]
-        return c.eval_ours(s, energies=energies)
+    def shifted(E, delta):
+        return [e + delta if k in group else e for k, e in enumerate(E)]
 
-    def f(delta):
-        v = shifted(delta, fit[0])
-        if v is None:
-            return mp.mpf(1e30)
-        diff = v - th[0]
-        return diff.real + diff.imag
+    return _solve_energies(c, fit, shifted, lambda E: 0)
 
-    sc = max([abs(v) for v in th] + [mp.mpf(1e-30)])
-    for step in (0.5, -0.5, 1, -1, 2, -2, 4, -4):
-        try:
-            delta = mp.findroot(f, step * spread, verify=False)
-        except (ValueError, ZeroDivisionError):
-            continue
-        delta = mp.mpf(delta.real) if isinstance(delta, mp.mpc) else delta
-        if abs(delta) < 1e-10 * spread:
-            continue
-        vals = [shifted(delta, s) for s in fit]
-        if all(v is not None and c.close(v, w, sc) for v, w in zip(vals, th)):
-            return delta
-    return None
+
+def _multiplet_name(c: _Comparison, group: tuple[int, ...]) -> str:
+    """`` S=1, ...``: the quantum numbers (apart from Sz) the levels of ``group`` share, or ''."""
+    labels = {tuple((n, v) for n, v in lab if n != "Sz") for k in group
+              for lab in c.d.levels[k].quantum_numbers}
+    if len(labels) == 1 and next(iter(labels)):
+        return " " + ", ".join(f"{n}={v}" for n, v in next(iter(labels)))
+    return ""
 
 
 def _slip_multiplet_energy(c: _Comparison) -> Slip | None:
@@ -504,32 +519,18 @@ def _slip_multiplet_energy(c: _Comparison) -> Slip | None:
         delta = _solve_shift(c, group, fit)
         if delta is None:
             continue
-        found = [(fit[0].params, delta)]
-        for _ in range(len(c.params) + 1):
-            params = draw_parameters(c.rng, c.params)
-            more = [_Sample(-1, params, s.beta, s.x, s.y, s.t) for s in fit]
-            d2 = _solve_shift(c, group, more)
-            if d2 is None:
-                break
-            found.append((params, d2))
+        found = _at_further_points(c, fit, delta, lambda more: _solve_shift(c, group, more))
         shift = _identify(c, found)
         lv = c.d.levels
         energies = ", ".join(sp.sstr(lv[k].energy) for k in group)
-        labels = {tuple((n, v) for n, v in lab if n != "Sz") for k in group
-                  for lab in lv[k].quantum_numbers}
-        name = ""
-        if len(labels) == 1 and next(iter(labels)):
-            name = " " + ", ".join(f"{n}={v}" for n, v in next(iter(labels)))
+        name = _multiplet_name(c, group)
         rest = tuple(k for k in range(L) if k not in group)
         also = ""
         if len(rest) == 1:
             also = (f"; equivalently the level E = {sp.sstr(lv[rest[0]].energy)} moved the "
                     f"other way (only differences of levels enter)")
         elif rest in _multiplets(c):
-            other = {tuple((n, v) for n, v in lab if n != "Sz") for k in rest
-                     for lab in lv[k].quantum_numbers}
-            oname = (" " + ", ".join(f"{n}={v}" for n, v in next(iter(other)))
-                     if len(other) == 1 and next(iter(other)) else "")
+            oname = _multiplet_name(c, rest)
             also = (f"; equivalently the other multiplet{oname} moved the other way (only "
                     f"differences of levels enter)")
         return "multiplet-energy", (f"wrong multiplet energy: your expression matches ours with "
@@ -547,15 +548,7 @@ def _slip_level_energy(c: _Comparison) -> Slip | None:
         eps = _solve_level(c, a, fit)
         if eps is None:
             continue
-        found = [(fit[0].params, eps)]
-        # the same level at further parameter points, to write the new energy as a formula
-        for _ in range(len(c.params) + 1):
-            params = draw_parameters(c.rng, c.params)
-            more = [_Sample(-1, params, s.beta, s.x, s.y, s.t) for s in fit]
-            e2 = _solve_level(c, a, more)
-            if e2 is None:
-                break
-            found.append((params, e2))
+        found = _at_further_points(c, fit, eps, lambda more: _solve_level(c, a, more))
         new = _identify(c, found)
         return "level-energy", (f"wrong level energy: your expression matches ours with the level "
                                 f"{_level_text(c, a)} moved to E = {new}")

@@ -84,26 +84,6 @@ def _positive_float(text: str) -> float:
     return v
 
 
-def _count(text: str) -> int:
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if not 1 <= v <= 100:
-        raise argparse.ArgumentTypeError(f"{text!r} must be from 1 to 100")
-    return v
-
-
-def _seed(text: str) -> int:
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if v < 0:
-        raise argparse.ArgumentTypeError(f"{text!r} must be zero or positive")
-    return v
-
-
 def _interval(text: str) -> tuple[float, float]:
     """``"TMIN:TMAX"`` with 0 < TMIN < TMAX."""
     lo, sep, hi = text.partition(":")
@@ -130,15 +110,18 @@ def _sweep(text: str) -> tuple[str, float, float]:
     return name.strip(), a, b
 
 
-def _whole_number(low: int, high: int) -> Callable[[str], int]:
-    """An argparse type: a whole number from ``low`` to ``high``."""
+def _whole_number(low: int, high: int | None = None) -> Callable[[str], int]:
+    """An argparse type: a whole number from ``low`` to ``high`` (no upper end if None)."""
+    wanted = f"from {low} to {high}" if high is not None else (
+        "zero or positive" if low == 0 else f"at least {low}")
+
     def parse(text: str) -> int:
         try:
             v = int(text)
         except ValueError:
             raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-        if not low <= v <= high:
-            raise argparse.ArgumentTypeError(f"{text!r} must be from {low} to {high}")
+        if v < low or (high is not None and v > high):
+            raise argparse.ArgumentTypeError(f"{text!r} must be {wanted}")
         return v
     return parse
 
@@ -196,9 +179,13 @@ def _common_parent() -> argparse.ArgumentParser:
     return common
 
 
-def _add_seed(p: argparse.ArgumentParser) -> None:
-    """The --seed option of the commands that draw random points."""
-    p.add_argument("--seed", type=_seed, default=0, metavar="S",
+def _add_random_points(p: argparse.ArgumentParser, option: str, low: int, high: int,
+                       default: int) -> None:
+    """The number of random points (``option``, from ``low`` to ``high``) and their --seed, for
+    the commands that draw random points."""
+    p.add_argument(option, type=_whole_number(low, high), default=default, metavar="N",
+                   help=f"number of random points ({low}-{high}, default {default})")
+    p.add_argument("--seed", type=_whole_number(0), default=0, metavar="S",
                    help="seed of the random points (default 0)")
 
 
@@ -231,9 +218,7 @@ def _add_verify(sub, with_case: argparse.ArgumentParser) -> None:
                        description="Evaluate every derived quantity at random parameter points "
                                    "and temperatures and compare it with exact numerical "
                                    "diagonalisation; exit status 1 on any mismatch.")
-    p.add_argument("--points", type=_count, default=3, metavar="N",
-                   help="number of random points (1-100, default 3)")
-    _add_seed(p)
+    _add_random_points(p, "--points", 1, 100, 3)
     p.set_defaults(run=_cmd_verify)
 
 
@@ -258,9 +243,7 @@ def _add_check(sub, one_response: argparse.ArgumentParser) -> None:
     p.add_argument("--quantity", choices=CHECKED_QUANTITIES, default="isothermal", metavar="Q",
                    help=f"what the formula is: {', '.join(CHECKED_QUANTITIES)} (default: "
                         f"isothermal)")
-    p.add_argument("--samples", type=_whole_number(3, 100), default=9, metavar="N",
-                   help="number of random points (3-100, default 9)")
-    _add_seed(p)
+    _add_random_points(p, "--samples", 3, 100, 9)
     p.set_defaults(run=_cmd_check)
 
 
@@ -273,9 +256,7 @@ def _add_consistency(sub, with_case: argparse.ArgumentParser) -> None:
                                    "agreement with exact diagonalisation) at random points and "
                                    "print a table per response; exit status 1 if any check "
                                    "fails.")
-    p.add_argument("--points", type=_whole_number(1, 50), default=3, metavar="N",
-                   help="number of random points (1-50, default 3)")
-    _add_seed(p)
+    _add_random_points(p, "--points", 1, 50, 3)
     p.set_defaults(run=_cmd_consistency)
 
 

@@ -98,11 +98,16 @@ _SI_PER_CGS = 4e-6 * math.pi
 _SYSTEMS = ("cgs", "SI")
 
 
+def _canonical(name: str, unit: object, table: dict, what: str) -> str:
+    """The spelling of ``unit`` that keys ``table`` (aliases resolved); InputError otherwise."""
+    canon = _ALIASES.get(unit, unit) if isinstance(unit, str) else unit
+    if not isinstance(canon, str) or canon not in table:
+        raise InputError(f"{name}={unit!r} is not {what} (use one of {', '.join(table)})")
+    return canon
+
+
 def _unit(name: str, unit: object) -> str:
-    if not isinstance(unit, str) or _ALIASES.get(unit, unit) not in ENERGY_UNITS:
-        known = ", ".join(ENERGY_UNITS)
-        raise InputError(f"{name}={unit!r} is not an energy unit (use one of {known})")
-    return _ALIASES.get(unit, unit)
+    return _canonical(name, unit, ENERGY_UNITS, "an energy unit")
 
 
 def _positive(name: str, value: object) -> float:
@@ -349,11 +354,7 @@ def temperature_unit_name(unit: object, *, name: str = "temperature_unit") -> st
     >>> temperature_unit_name("kelvin")
     'K'
     """
-    canon = _ALIASES.get(unit, unit) if isinstance(unit, str) else unit
-    if not isinstance(canon, str) or canon not in TEMPERATURE_UNITS:
-        known = ", ".join(TEMPERATURE_UNITS)
-        raise InputError(f"{name}={unit!r} is not a temperature unit (use one of {known})")
-    return canon
+    return _canonical(name, unit, TEMPERATURE_UNITS, "a temperature unit")
 
 
 def energy_in_joule_exact(unit: str) -> Fraction:
