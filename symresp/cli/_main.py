@@ -403,6 +403,19 @@ def _quantities_of(case: Case, label: str, override: list[str] | None) -> tuple[
     return case.response(label).quantities
 
 
+def _no_response(case: Case, what: str) -> InputError:
+    """The error of a command that needs a response, on a case that asks for none."""
+    return InputError(f"{case.source}: the case asks for no [[response]]; there is nothing to "
+                      f"{what}")
+
+
+def _several_responses(case: Case) -> InputError:
+    """The error of a command that works on one response, on a case with several."""
+    labels = ", ".join(r.label for r in case.responses)
+    return InputError(f"{case.source}: the case has {len(case.responses)} responses ({labels}); "
+                      f"choose one with --response LABEL")
+
+
 def _cmd_list(args: argparse.Namespace, progress: _Progress) -> int:
     if args.set:
         raise InputError("--set has nothing to set in 'list'; use it with a command that reads a "
@@ -491,9 +504,7 @@ def _cmd_check(args: argparse.Namespace, progress: _Progress) -> int:
                          f"--quantity partition can be checked")
     if len(case.responses) > 1:
         if args.quantity != "partition":
-            labels = ", ".join(r.label for r in case.responses)
-            raise InputError(f"{case.source}: the case has {len(case.responses)} responses "
-                             f"({labels}); choose one with --response LABEL")
+            raise _several_responses(case)
         # Z depends on H alone: any one response carries it
         case = dataclasses.replace(case, responses=case.responses[:1])
     label, d = _derive(case, args, progress)[0]
@@ -514,8 +525,7 @@ def _cmd_check(args: argparse.Namespace, progress: _Progress) -> int:
 def _cmd_consistency(args: argparse.Namespace, progress: _Progress) -> int:
     case = _load(args, progress)
     if not case.responses:
-        raise InputError(f"{case.source}: the case asks for no [[response]]; there is nothing to "
-                         f"check")
+        raise _no_response(case, "check")
     derived = _derive(case, args, progress)
     print(f"consistency {case.name}: physical checks of the derived responses ({case.source})")
     failed = []
@@ -543,8 +553,7 @@ def _cmd_plot(args: argparse.Namespace, progress: _Progress) -> int:
     data = read_columns(args.data) if args.data is not None else None
     derived = _derive(case, args, progress)
     if derived and derived[0][0] == "levels":
-        raise InputError(f"{case.source}: the case asks for no [[response]]; there is nothing to "
-                         f"plot")
+        raise _no_response(case, "plot")
     out = Path(args.out)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {out}: exists and is not a directory")
@@ -570,12 +579,9 @@ def _cmd_plot(args: argparse.Namespace, progress: _Progress) -> int:
 def _cmd_emit(args: argparse.Namespace, progress: _Progress) -> int:
     case = _load(args, progress)
     if not case.responses:
-        raise InputError(f"{case.source}: the case asks for no [[response]]; there is nothing to "
-                         f"emit")
+        raise _no_response(case, "emit")
     if len(case.responses) > 1:
-        labels = ", ".join(r.label for r in case.responses)
-        raise InputError(f"{case.source}: the case has {len(case.responses)} responses ({labels}); "
-                         f"choose one with --response LABEL")
+        raise _several_responses(case)
     derived = _derive(case, args, progress)
     label, d = derived[0]
     progress(f"writing the evaluator of '{label}'")
