@@ -402,23 +402,49 @@ def describe(op: Operator) -> str:
             names += [(site.name, c), (f"adj({site.name})", cd), (f"n({site.name})", cd * c)]
     if not names:
         return repr(op)
-    coeffs = sp.symbols(f"k0:{len(names)}")
+    if any(len(m) > 1 for m, _ in op.terms):
+        return repr(op)                    # products of sites: no single-site combination
+    # The candidates act on one site each, so the coefficients are found site by site, from a
+    # few pivot equations (one matrix unit per candidate), then checked on every term. Solving
+    # all equations at once would put every spin matrix element sqrt(S(S+1) - m(m+1)) into one
+    # number field: for a spin 10 that is a degree-128 extension and minutes of sympy.
     target = {m: c for m, c in op.terms if m != ()}
+    values: dict[str, sp.Expr] = {}
     total: dict = {}
-    for k, (_, cand) in zip(coeffs, names):
-        for mono, c in cand.terms:
-            total[mono] = total.get(mono, sp.Integer(0)) + k * c
-    eqs = [total.get(m, sp.Integer(0)) - c for m, c in target.items()]
-    eqs += [v for m, v in total.items() if m not in target and m != ()]
-    sol = sp.solve(eqs, coeffs, dict=True) if eqs else [{}]
-    if not sol:
-        return repr(op)
+    by_site: dict = {}
+    for name, cand in names:
+        by_site.setdefault(next(iter(cand.sites)), []).append((name, cand))
+    for site, group in by_site.items():
+        cols = [{m: c for m, c in cand.terms if m != ()} for _, cand in group]
+        monos = sorted({m for col in cols for m in col} | {m for m in target if m and m[0][0] == site},
+                       key=repr)
+        rows: list[list[sp.Expr]] = []
+        rhs: list[sp.Expr] = []
+        for m in monos:
+            row = [col.get(m, sp.Integer(0)) for col in cols]
+            trial = sp.Matrix(rows + [row])
+            if trial.rank(simplify=True) > len(rows):
+                rows.append(row)
+                rhs.append(target.get(m, sp.Integer(0)))
+            if len(rows) == len(cols):
+                break
+        if len(rows) < len(cols):
+            return repr(op)
+        sol = sp.Matrix(rows).LUsolve(sp.Matrix(rhs))
+        for (name, cand), v in zip(group, sol):
+            v = sp.nsimplify(sp.radsimp(v)) if not v.free_symbols else sp.radsimp(v)  # safe: sympy objects computed here, never user text
+            values[name] = v
+            for mono, c in cand.terms:
+                total[mono] = total.get(mono, sp.Integer(0)) + v * c
+    for m in set(target) | {m for m in total if m != ()}:
+        if sp.expand(sp.radsimp(total.get(m, sp.Integer(0)) - target.get(m, sp.Integer(0)))) != 0:
+            return repr(op)
     parts = []
-    const = sp.expand(op.scalar_part() - total.get((), sp.Integer(0)).subs(sol[0]).subs({c: 0 for c in coeffs}))
+    const = sp.expand(op.scalar_part() - total.get((), sp.Integer(0)))
     if const != 0:
         parts.append(sp.sstr(const))
-    for k, (name, _) in zip(coeffs, names):
-        v = sp.nsimplify(sol[0].get(k, 0)).subs({c: 0 for c in coeffs})  # safe: sympy objects computed here, never user text
+    for name, _ in names:
+        v = values.get(name, sp.Integer(0))
         if v == 0:
             continue
         parts.append(name if v == 1 else f"-{name}" if v == -1 else f"{sp.sstr(v) if v.is_Atom else '(' + sp.sstr(v) + ')'}*{name}")

@@ -39,7 +39,9 @@ import sympy as sp
 from ..algebra import sparse_form
 from ..errors import ClosedFormError
 from ..response import Derivation
-from ..spectrum import LevelRoot
+from ..spectrum import ImplicitBlock, LevelRoot
+from ..spectrum._implicit import block_spec, gram_root
+from ._functions import RootPick, SemiEigen, SemiWeights
 from ._plan import Pair, Plan
 
 __all__ = ["EigenBlock", "eigen_plan"]
@@ -105,6 +107,8 @@ def _local_projector(sol, factor: int, root: int) -> sp.Matrix:
 def eigen_plan(d: Derivation, plan: Plan) -> Plan:
     """``plan`` with every quantity that involves an implicit level rewritten with numeric
     projectors (unchanged when the derivation has no parametric implicit level)."""
+    if any(sol.kind == "semi" for sol in d.spectrum.solutions):
+        return semi_plan(d, plan)
     if not plan.roots:
         return plan
     spec = d.spectrum
@@ -210,3 +214,88 @@ def eigen_plan(d: Derivation, plan: Plan) -> Plan:
         mean_b[a] = tidy(eb / g) if plan.mean_b[a] != 0 else sp.Integer(0)
     return replace(plan, pairs=tuple(pairs), fluctuation=tuple(fluct), mean_a=tuple(mean_a),
                    mean_b=tuple(mean_b), eigen=tuple(blocks))
+
+
+def _similarity_floats(X: ImplicitBlock) -> tuple[tuple, tuple]:
+    """(R, R^-1) of :func:`symresp.spectrum._implicit.gram_root` as _DIGITS-digit Floats."""
+    if not len(X.gram):
+        return (), ()
+    n = X.n
+    with mpmath.workdps(_DIGITS + 10):
+        R, Ri = gram_root(X, _DIGITS + 10)
+        return (tuple(sp.Float(R[i, j], _DIGITS) for i in range(n) for j in range(n)),
+                tuple(sp.Float(Ri[i, j], _DIGITS) for i in range(n) for j in range(n)))
+
+
+def semi_plan(d: Derivation, plan: Plan) -> Plan:
+    """``plan`` with the stage-P lines that diagonalise every semi-closed block (and every block
+    a semi-closed weight couples to) at the point: the implicit roots (``_lam`` symbols) and the
+    weights (``_bw`` symbols of ``plan.block_weights``) read from them (see
+    :mod:`symresp.spectrum._eigen_numeric`)."""
+    spec = d.spectrum
+    rename = dict(zip(plan.original, plan.parameters))
+    blocks: list[ImplicitBlock] = []
+    for bi, sol in enumerate(spec.solutions):
+        if sol.kind == "semi":
+            blocks.append(spec.implicit_block(bi).xreplace(rename))
+    for _, w in plan.block_weights:
+        for X in (w.args[1], w.args[3]):
+            if X not in blocks:
+                blocks.append(X)
+    lines: list[tuple[sp.Symbol, sp.Expr]] = []
+    holders: dict[ImplicitBlock, tuple[sp.Symbol, ImplicitBlock]] = {}
+    similarity = {}
+    rsym = {sym: (tuple(rs.coeffs), k) for rs in plan.roots for sym, k in rs.picks}
+    where_root: dict = {}
+    for h, X in enumerate(blocks):
+        holder = sp.Symbol(f"_sb{h}")
+        spec_, explicit, factors = block_spec(X)
+        T = _similarity_floats(X)
+        similarity[X] = T
+        lines.append((holder, SemiEigen(X.n, sp.Tuple(*[sp.Tuple(*row) for row in spec_]),
+                                        sp.Tuple(*explicit),
+                                        sp.Tuple(*[sp.Tuple(*c) for c in factors]),
+                                        sp.Tuple(*X.dense()), sp.Tuple(*T[0]), sp.Tuple(*T[1]))))
+        holders[X] = (holder, X)
+        for p, (energy, _) in enumerate(X.parts):
+            if isinstance(energy, LevelRoot):
+                where_root.setdefault((tuple(energy.args[1:]), int(energy.args[0])), (holder, p))
+    for sym, key in rsym.items():
+        if key not in where_root:
+            raise AssertionError(f"emit: no semi-closed block holds the root {sym}")  # engine invariant
+        holder, p = where_root[key]
+        lines.append((sym, RootPick(holder, p)))
+    groups: dict[tuple, list] = {}
+    for sym, w in plan.block_weights:
+        kind, X, a, Y, b, L, R = w.args
+        groups.setdefault((X, Y, L, R), []).append((sym, w))
+    for g, ((X, Y, L, R), members) in enumerate(groups.items()):
+        hX, _ = holders[X]
+        hY, _ = holders[Y]
+        holder = sp.Symbol(f"_sw{g}")
+        offs = []
+        for B in (X, Y):
+            o = [0]
+            for _, mult in B.parts:
+                o.append(o[-1] + int(mult))
+            offs.append(sp.Tuple(*o))
+        dense = [sp.Integer(0)] * (X.n * Y.n)
+        for i, j, v in L:
+            dense[int(i) * Y.n + int(j)] = v
+        rdense = []
+        if len(R):
+            rdense = [sp.Integer(0)] * (X.n * Y.n)
+            for i, j, v in R:
+                rdense[int(i) * X.n + int(j)] = v
+        real = all(sym.is_real for sym, _ in members)
+        TX, TY = similarity[X], similarity[Y]
+        lines.append((holder, SemiWeights(
+            RootPick(hX, len(X.parts)), RootPick(hY, len(Y.parts)), offs[0], offs[1], X.n, Y.n,
+            sp.Tuple(*dense), sp.Tuple(*rdense),
+            sp.Tuple(sp.Tuple(*TX[0]), sp.Tuple(*TX[1])) if TX[0] else sp.Tuple(),
+            sp.Tuple(sp.Tuple(*TY[0]), sp.Tuple(*TY[1])) if TY[0] else sp.Tuple(),
+            sp.true if real else sp.false)))
+        for sym, w in members:
+            a, b = int(w.args[2]), int(w.args[4])
+            lines.append((sym, RootPick(holder, a * len(Y.parts) + b)))
+    return replace(plan, semi=tuple(lines))

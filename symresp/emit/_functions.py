@@ -18,7 +18,8 @@ from __future__ import annotations
 import sympy as sp
 
 __all__ = ["Boltzmann", "BoltzmannT", "AsComplex", "ExpDiv", "ExpDiv2", "Keep", "LevelMin",
-           "AtMin", "DegeneracyTol", "Causal", "BlockEigen", "RootPick", "CACHE_ONLY"]
+           "AtMin", "DegeneracyTol", "Causal", "BlockEigen", "RootPick", "SemiEigen", "SemiWeights",
+           "CACHE_ONLY"]
 
 
 class Boltzmann(sp.Function):
@@ -144,6 +145,23 @@ class BlockEigen(sp.Function):
     ascending, then for each of them the n*n entries of its local projector
     :math:`R\,(\sum uu^\dagger) R^{-1}`, read with :class:`RootPick`.
     """
+
+
+class SemiEigen(sp.Function):
+    r"""``SemiEigen(n, spec, explicit, coeffs, entries, R, Rinv)``: a semi-closed block
+    diagonalised at the point (``_semieig`` of :mod:`symresp.spectrum._eigen_numeric`). Its
+    value is a tuple: the energy of each part in ``spec`` order, then the eigenvectors with the
+    columns of each part together, read with :class:`RootPick`. ``spec`` holds
+    (kind, states, factor, k) per part; ``explicit`` the exact energies of explicit parts;
+    ``coeffs`` the coefficients of each implicit factor; ``entries`` the block matrix row by
+    row; R and R^-1 the constant similarity to Hermitian form (empty for the identity).
+    """
+
+
+class SemiWeights(sp.Function):
+    r"""``SemiWeights(U, V, offU, offV, nU, nV, L, R, TU, TV, real)``: the weights
+    :math:`\mathrm{Tr}(P_a L P_b R)` between the parts of two diagonalised blocks (eigenvectors
+    U, V with part column offsets), row by row, read with :class:`RootPick`."""
 
 
 class RootPick(sp.Function):

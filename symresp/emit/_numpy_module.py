@@ -36,7 +36,7 @@ from ._program import (Program, energies_program, freeze_plan, jacobian_program,
                        params_program, poles_program, spectral_program, static_program,
                        time_program)
 from ._runtime import runtime_source
-from ._runtime_roots import ROOTS_RUNTIME
+from ._runtime_roots import ROOTS_RUNTIME, semi_runtime
 
 __all__ = ["numpy_module_source", "compile_module", "numpy_functions", "symresp_version"]
 
@@ -347,6 +347,11 @@ def _glue(plan: Plan, has_time: bool, prefix: str = "") -> list[str]:
     for kind in ("isothermal", "isolated"):
         call = (f"_static_call(_jacobian_{kind}_s, _jacobian_{kind}_a, _params_jacobian_s, "
                 f"_params_jacobian_a, T, {tup}, {n}, _STATIC)")
+        if plan.numeric_weights:
+            # Weights of semi-closed blocks are known numerically only: central differences.
+            jac_body += [f'    if kind == "{kind}":',
+                         f"        return _fd_jacobian(chi_{kind}, T, {tup})"]
+            continue
         if plan.eigen:
             # Semi-closed blocks: where two of their levels nearly coincide, the exact weights'
             # derivatives lose digits; there the Jacobian is taken from the stable values.
@@ -467,8 +472,9 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     exact = freeze_plan(exact, table)
     # Both take the levels of semi-closed blocks from the numerically diagonalised block.
     jac = replace(exact, eigen=plan.eigen)
-    P = {kind: params_program(jac if kind == "jacobian" else plan, kind)
-         for kind in ("isothermal", "isolated", "jacobian", "dynamic")}
+    kinds = ("isothermal", "isolated", "dynamic") if plan.numeric_weights else \
+        ("isothermal", "isolated", "jacobian", "dynamic")
+    P = {kind: params_program(jac if kind == "jacobian" else plan, kind) for kind in kinds}
 
     static_vals = [p.S for p in exact.pairs] + list(exact.fluctuation) + list(exact.mean_a) + list(exact.mean_b)
     static_real = not exact.is_complex(*static_vals)
@@ -507,7 +513,9 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     ]
     src += runtime_source().splitlines()
     src += CORRELATION_RUNTIME.splitlines()
-    if plan.roots:
+    if plan.semi:
+        src += semi_runtime().splitlines()
+    if plan.roots and not plan.semi:
         src += ROOTS_RUNTIME.splitlines()
         lam = {sym for rs in plan.roots for sym, _ in rs.picks}
         implicit = tuple(a for a, e in enumerate(plan.energies) if e.free_symbols & lam)
@@ -515,7 +523,7 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     src += ["", f"_STATIC = numpy.dtype({static_dtype})", f"_WAVE = numpy.dtype({wave_dtype})"]
     src += ["", "", "# " + "-" * 90, "# Stage P: parameters only (energies, spacings, weights).",
             "# " + "-" * 90, "", ""]
-    for kind in ("isothermal", "isolated", "jacobian", "dynamic"):
+    for kind in kinds:
         src += _both(P[kind]) + ["", ""]
     src += _both(energies_program(plan)) + ["", ""]
     src += _both(correlation_program(plan)) + ["", ""]
@@ -523,8 +531,9 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
             "# " + "-" * 90, "", ""]
     for kind in ("isothermal", "isolated"):
         src += _both(static_program(plan, kind, P[kind].returns), True, static_real) + ["", ""]
-        src += _both(jacobian_program(exact, kind, P["jacobian"].returns), True,
-                     static_real) + ["", ""]
+        if "jacobian" in P:
+            src += _both(jacobian_program(exact, kind, P["jacobian"].returns), True,
+                         static_real) + ["", ""]
     for what in ("omega", "spectral", "time"):
         src += _both(poles_program(plan, what, P["dynamic"].returns), True,
                      not wave_complex) + ["", ""]

@@ -38,12 +38,15 @@ import keyword
 import re
 from dataclasses import dataclass
 
+import mpmath
 import sympy as sp
 
-from ..errors import ClosedFormError, InputError
+from ..errors import InputError
 from ..models import checkpoint
 from ..response import Derivation
-from ..spectrum import LevelRoot, clean
+from ..spectrum import BlockWeight, LevelRoot, clean, real_root
+from ..spectrum._implicit import weight_arrays
+from ..spectrum._solve import root_value
 
 __all__ = ["Plan", "Pair", "Group", "RootSet", "build_plan", "fingerprint", "is_zero"]
 
@@ -63,9 +66,6 @@ _TAKEN = frozenset({"T", "omega", "t", "eta", "kind", "shape", "numpy", "math", 
 _KEY_DIGITS = 25
 #: |value| below which a high-precision evaluation counts as an exact zero.
 _ZERO_CUTOFF = sp.Float("1e-40")
-#: Degree of the parameter-dependent characteristic factors the evaluators solve numerically
-#: (the engine keeps implicit roots of symbolic blocks for degree 3 only).
-_ROOT_DEGREE = 3
 
 
 @dataclass(frozen=True, slots=True)
@@ -130,6 +130,14 @@ class Plan:
     prescription: int                        # +1 retarded, -1 advanced
     roots: tuple[RootSet, ...] = ()          # semi-closed blocks, solved numerically per point
     eigen: tuple = ()                        # the same blocks diagonalised (see _eigen.py)
+    block_weights: tuple = ()                # (symbol, BlockWeight): weights known numerically
+    semi: tuple = ()                         # stage-P lines computing those and the roots
+
+    @property
+    def numeric_weights(self) -> bool:
+        """True when some weight is known only numerically (semi-closed blocks): the Jacobian
+        is then taken by central differences."""
+        return bool(self.block_weights)
 
     @property
     def has_covariance(self) -> bool:
@@ -140,7 +148,9 @@ class Plan:
         return tuple(p.name for p in self.parameters)
 
     def is_complex(self, *exprs: sp.Expr) -> bool:
-        return any(sp.sympify(e).has(sp.I) for e in exprs)  # safe: derivation values are already sympy objects
+        # safe: derivation values are already sympy objects
+        return any(sp.sympify(e).has(sp.I) or any(x.is_real is False for x in sp.sympify(e).free_symbols)
+                   for e in exprs)
 
 
 def _sample(symbols, k: int) -> dict:
@@ -148,13 +158,96 @@ def _sample(symbols, k: int) -> dict:
     return {s: sp.Rational(1000 + 37 * (i + 1) * (k + 2), 997 + 13 * i + 5 * k) for i, s in enumerate(symbols)}
 
 
-def is_zero(expr: sp.Expr) -> bool:
-    """Exact zero test: expansion, then high-precision evaluation at fixed points."""
+def _named_point(symbols, k: int) -> dict:
+    """Fixed irrational-looking rational values that depend on each symbol's name only, so
+    numeric values of implicit atoms can be shared between expressions."""
+    out = {}
+    for s in symbols:
+        h = sum((i + 1) * ord(c) for i, c in enumerate(s.name))
+        out[s] = sp.Rational(1000 + 37 * (h % 97 + 1) * (k + 2), 997 + 13 * (h % 89) + 5 * k)
+    return out
+
+
+def _weights_vanish(expr: sp.Expr, cache: dict) -> bool:
+    """Zero test of an expression holding semi-closed weights (:class:`BlockWeight`).
+
+    The weights are algebraic functions of the parameters, evaluated at two generic points from
+    the diagonalised blocks in double precision (one decomposition per block and point, in
+    ``cache``); values far from zero decide at once, values at rounding level count as zero,
+    and the narrow range between is decided at 40 digits.
+    """
+    syms = sorted(expr.free_symbols, key=lambda s: s.name)
+    for k in range(2):
+        checkpoint("planning the evaluator: zero test of semi-closed weights")
+        pt = _named_point(syms, k)
+        store = cache.setdefault(k, {})
+
+        def num(e, pt=pt):
+            return complex(e.xreplace(pt)) if e.free_symbols else complex(e)
+        vals = {w: complex(weight_arrays(w, num, store)) for w in expr.atoms(BlockWeight)}
+        size = sum(abs(v) for v in vals.values()) or 1.0
+        for r in expr.atoms(sp.CRootOf, LevelRoot):
+            vals[r] = complex(_root_at(r, pt, 20))
+        e = expr.xreplace({a: sp.Float(v.real, 17) + sp.I * sp.Float(v.imag, 17)
+                           for a, v in vals.items()}).xreplace(pt)
+        value = abs(complex(sp.N(e, 20)))
+        if value >= 1e-6 * size:
+            return False
+        if value >= 1e-12 * size and abs(complex(sp.N(expr.xreplace(pt), 40))) > 1e-25 * size:
+            return False
+    return True
+
+
+def _root_at(r: sp.Expr, point: dict, digits: int) -> sp.Float:
+    """An implicit root at a point of the parameters, as a Float (a parametric LevelRoot at a
+    rational point would become a CRootOf, which sympy isolates again on every evalf)."""
+    if isinstance(r, sp.CRootOf):
+        return _root_number(r)
+    key = (r, tuple(sorted(point.items(), key=lambda kv: kv[0].name)), digits)
+    hit = _ROOTS_AT.get(key)
+    if hit is None:
+        k, *coeffs = r.args
+        with mpmath.workdps(digits + 10):
+            value = real_root(int(k), [sp.N(c.xreplace(point), digits + 10) for c in coeffs],
+                              extra=2 * digits)
+            hit = sp.Float(value, digits)
+        if len(_ROOTS_AT) > 4096:
+            _ROOTS_AT.clear()
+        _ROOTS_AT[key] = hit
+    return hit
+
+
+def _root_number(r: sp.CRootOf) -> sp.Expr:
+    """The 70-digit value of an exact algebraic constant (imaginary for a block with an
+    imaginary scale i*J)."""
+    v = root_value(r)
+    if isinstance(v, mpmath.mpc):
+        return sp.Float(v.real, 70) + sp.I * sp.Float(v.imag, 70)
+    return sp.Float(v, 70)
+
+
+# Values of implicit roots at the fixed sample points (immutable keys; pure function values).
+_ROOTS_AT: dict = {}
+
+
+def _frozen_roots(expr: sp.Expr) -> sp.Expr:
+    """``expr`` with each exact algebraic constant (CRootOf) replaced by its 70-digit value,
+    computed once per root (sympy isolates the root again on every evalf)."""
+    roots = expr.atoms(sp.CRootOf)
+    return expr.xreplace({r: _root_number(r) for r in roots}) if roots else expr
+
+
+def is_zero(expr: sp.Expr, cache: dict | None = None) -> bool:
+    """Exact zero test: expansion, then high-precision evaluation at fixed points (expressions
+    with semi-closed weights: see :func:`_weights_vanish`; ``cache`` keeps their
+    decompositions between calls)."""
     expr = sp.sympify(expr)  # safe: derivation values are already sympy objects
     if expr == 0:
         return True
+    if expr.has(BlockWeight):
+        return _weights_vanish(expr, {} if cache is None else cache)
     if not expr.free_symbols:
-        return abs(sp.N(expr, 50)) < _ZERO_CUTOFF
+        return abs(sp.N(_frozen_roots(expr), 50)) < _ZERO_CUTOFF
     if expr.is_rational_function():
         # Rational in the parameters: cancellation decides exactly.
         return sp.cancel(expr) == 0
@@ -162,8 +255,11 @@ def is_zero(expr: sp.Expr) -> bool:
         # (Expanding products of implicit roots costs far more than the numeric test below.)
         return True
     syms = sorted(expr.free_symbols, key=lambda s: s.name)
+    expr = _frozen_roots(expr)
     for k in range(3):
-        value = sp.N(expr.subs(_sample(syms, k)), 50)
+        pt = _sample(syms, k)
+        roots = {r: _root_at(r, pt, 60) for r in expr.atoms(LevelRoot)}
+        value = sp.N(expr.xreplace(roots).xreplace(pt), 50)
         if abs(value) >= _ZERO_CUTOFF:
             return False
     return True
@@ -232,14 +328,6 @@ def build_plan(d: Derivation) -> Plan:
     # Declared order (case file, or parameters= of the API), then any other symbol by name.
     declared = tuple(p for p in d.system.parameters if p in symbols)
     original = declared + tuple(sorted(symbols - set(declared), key=lambda s: s.name))
-    for lv in levels:
-        for r in lv.energy.atoms(LevelRoot):
-            if len(r.args) != 1 + 1 + _ROOT_DEGREE:
-                raise ClosedFormError(
-                    f"emit: the level {lv.energy} is a root of a degree-{len(r.args) - 2} "
-                    f"polynomial with parameter-dependent coefficients; emitted evaluators solve "
-                    f"such factors numerically for degree {_ROOT_DEGREE} only: give numeric values "
-                    f"to more parameters of the block")
     safe = _safe_names(original)
     rename = dict(zip(original, safe))
 
@@ -252,6 +340,7 @@ def build_plan(d: Derivation) -> Plan:
 
     same = d.A == d.B
     pairs: list[Pair] = []
+    numeric: dict = {}                  # decompositions of semi-closed blocks at sample points
     for a in range(L):
         checkpoint("planning the evaluator: pairs of levels", f"level {a + 1} of {L}")
         for b in range(a + 1, L):
@@ -266,9 +355,9 @@ def build_plan(d: Derivation) -> Plan:
             else:
                 S = _tidy(wab + wba, imp)
                 D = _tidy(wab - wba, imp)
-            if D != 0 and is_zero(D):
+            if D != 0 and is_zero(D, numeric):
                 D = sp.Integer(0)
-            if is_zero(S) and D == 0:
+            if is_zero(S, numeric) and D == 0:
                 continue
             pairs.append(Pair(a, b, _spacing(energies[a], energies[b], imp, safe), S, D))
 
@@ -281,16 +370,20 @@ def build_plan(d: Derivation) -> Plan:
         g = lv.degeneracy
         ea, eb = eA.get(a, sp.Integer(0)), eB.get(a, sp.Integer(0))
         C = _tidy(W.get((a, a), sp.Integer(0)) - ea * eb / g, implicit[a])
-        fluct.append(sp.Integer(0) if is_zero(C) else C)
+        fluct.append(sp.Integer(0) if is_zero(C, numeric) else C)
         mean_a.append(_tidy(ea / g, implicit[a]))
         mean_b.append(_tidy(eb / g, implicit[a]))
 
     conv = d.convention
+    # Weights of semi-closed blocks become symbols computed numerically per point (_eigen.py).
+    bweights, wmap = _weight_symbols([*(e for p in pairs for e in (p.S, p.D)), *fluct, *mean_a,
+                                      *mean_b])
     # Semi-closed blocks: each implicit root becomes a symbol computed numerically per point.
     roots, rmap = _root_sets([*energies, *(e for p in pairs for e in (p.w, p.S, p.D)),
                               *fluct, *mean_a, *mean_b])
 
     def r(e: sp.Expr) -> sp.Expr:
+        e = e.xreplace(wmap) if wmap else e
         return e.xreplace(rmap) if rmap else e
 
     pairs = [Pair(p.a, p.b, r(p.w), r(p.S), r(p.D)) for p in pairs]
@@ -298,7 +391,32 @@ def build_plan(d: Derivation) -> Plan:
                 tuple(lv.degeneracy for lv in levels), tuple(pairs), groups,
                 tuple(r(e) for e in fluct), tuple(r(e) for e in mean_a),
                 tuple(r(e) for e in mean_b), conv.sign, conv.frequency_sign,
-                1 if conv.prescription == "retarded" else -1, roots)
+                1 if conv.prescription == "retarded" else -1, roots, block_weights=bweights)
+
+
+def _is_real_weight(w: BlockWeight) -> bool:
+    """Whether a semi-closed weight is real for real parameters: real blocks and operators, or
+    Tr(P_a L P_b L^+) (A = B Hermitian), or the expectation of a Hermitian L."""
+    kind, X, a, Y, b, L, R = w.args
+    if not (X.is_complex() or Y.is_complex() or L.has(sp.I) or R.has(sp.I)):
+        return True
+    adj = {(i, j): sp.conjugate(v) for j, i, v in L}
+    if kind == 0:
+        return adj == {(i, j): v for i, j, v in R}
+    return X == Y and adj == {(i, j): v for i, j, v in L}
+
+
+def _weight_symbols(exprs: list[sp.Expr]) -> tuple[tuple, dict]:
+    """A symbol for each semi-closed weight (:class:`BlockWeight`) in ``exprs``."""
+    atoms: set = set()
+    for e in exprs:
+        atoms |= sp.sympify(e).atoms(BlockWeight)  # safe: derivation values are already sympy objects
+    out, wmap = [], {}
+    for k, w in enumerate(sorted(atoms, key=sp.default_sort_key)):
+        sym = sp.Symbol(f"_bw{k}", real=True) if _is_real_weight(w) else sp.Symbol(f"_bw{k}", real=False)
+        wmap[w] = sym
+        out.append((sym, w))
+    return tuple(out), wmap
 
 
 def _root_sets(exprs: list[sp.Expr]) -> tuple[tuple[RootSet, ...], dict]:
@@ -326,9 +444,12 @@ def _group_pairs(pairs: list[Pair], symbols: tuple[sp.Symbol, ...]) -> tuple[Gro
     point = _sample(symbols, 0)
     buckets: dict[str, list[int]] = {}
     groups: list[list[tuple[int, int]]] = []
+    # Each implicit root evaluated once (CRootOf isolates its root again on every evalf).
+    atoms = set().union(*[p.w.atoms(sp.CRootOf, LevelRoot) for p in pairs]) if pairs else set()
+    roots = {a: _root_at(a, point, 50) for a in atoms}
     for k, p in enumerate(pairs):
         checkpoint("planning the evaluator: grouping pole pairs", f"pair {k + 1} of {len(pairs)}")
-        value = sp.N(p.w.subs(point), 40)
+        value = sp.N(p.w.xreplace(roots).xreplace(point), 40)
         if value.has(sp.I) or not value.is_real:
             raise InputError(f"emit: level spacing {p.w} is not real")
         key = sp.Float(abs(value), 40).__format__(f".{_KEY_DIGITS}e")

@@ -23,7 +23,8 @@ from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.pycode import PythonCodePrinter
 
 from ._functions import (AsComplex, AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal,
-                         DegeneracyTol, ExpDiv, ExpDiv2, Keep, LevelMin, RootPick)
+                         DegeneracyTol, ExpDiv, ExpDiv2, Keep, LevelMin, RootPick, SemiEigen,
+                         SemiWeights)
 
 __all__ = ["ArrayPrinter", "ScalarPrinter", "ConstantTable", "freeze_constants", "DIGITS"]
 
@@ -183,6 +184,27 @@ class _ProgramPrinting:
             return "(" + "".join(f"{self._print(x)}, " for x in xs) + ")"
         return (f"_blockeig{self._suffix}({deg}, {mult}, {tup(others)}, {tup(entries)}, "
                 f"{tup(R)}, {tup(Rinv)})")
+
+    def _tuple(self, xs) -> str:
+        return "(" + "".join(f"{self._print(x) if isinstance(x, sp.Basic) else repr(x)}, "
+                             for x in xs) + ")"
+
+    def _print_SemiEigen(self, expr: SemiEigen) -> str:
+        n, spec, explicit, coeffs, entries, R, Rinv = expr.args
+        spec_text = "(" + "".join(f"({', '.join(str(int(v)) for v in row)}), " for row in spec) + ")"
+        T = f"({self._tuple(R)}, {self._tuple(Rinv)})" if len(R) else "()"
+        return (f"_semieig{self._suffix}({int(n)}, {spec_text}, {self._tuple(explicit)}, "
+                f"({''.join(self._tuple(c) + ', ' for c in coeffs)}), {self._tuple(entries)}, {T})")
+
+    def _print_SemiWeights(self, expr: SemiWeights) -> str:
+        U, V, offU, offV, nU, nV, L, R, TU, TV, real = expr.args
+        ints = (lambda xs: "(" + "".join(f"{int(x)}, " for x in xs) + ")")
+
+        def T(t) -> str:
+            return f"({self._tuple(t[0])}, {self._tuple(t[1])})" if len(t) else "()"
+        return (f"_semiw{self._suffix}({self._print(U)}, {self._print(V)}, {ints(offU)}, "
+                f"{ints(offV)}, {int(nU)}, {int(nV)}, {self._tuple(L)}, {self._tuple(R)}, "
+                f"{T(TU)}, {T(TV)}, {bool(real)})")
 
     def _print_RootPick(self, expr: RootPick) -> str:
         roots, k = expr.args

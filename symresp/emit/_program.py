@@ -119,6 +119,8 @@ def _root_lines(plan: Plan) -> list[tuple[sp.Symbol, sp.Expr]]:
         nn = len(eb.projectors[0])
         for k, syms in enumerate(eb.projectors):
             lines += [(x, RootPick(eb.holder, eb.deg + k * nn + i)) for i, x in enumerate(syms)]
+    # Semi-closed blocks of any size (_eigen.semi_plan): parts, roots and weights.
+    lines += [(sym, _freeze(e)) for sym, e in plan.semi]
     return lines
 
 

@@ -21,8 +21,9 @@ from sympy.printing.latex import LatexPrinter
 
 from ..errors import InputError
 from ..response import Presentation, split_shared
+from ..spectrum import LevelRoot
 from ..response._render import merge_labels, term_key
-from ._latex import latex_text
+from ._latex import _poly_latex, latex_text
 
 __all__ = ["latex_report", "presentation_latex", "formula_latex", "latex_names", "escape_text",
            "LATEX_TITLES"]
@@ -262,7 +263,7 @@ def _transition_table(p: Presentation, names: Mapping) -> list[str]:
 def _where(defs, p: Presentation, names: Mapping, collapsed) -> list[str]:
     pr = _Printer(p.rank, names)
     rows: list[str] = []
-    done: set[str] = set()
+    done: set = set()
     for d in defs:
         if d.kind in collapsed:
             if d.kind not in done:
@@ -270,7 +271,22 @@ def _where(defs, p: Presentation, names: Mapping, collapsed) -> list[str]:
                 rows.append(GENERIC_LATEX[d.kind])
             continue
         if d.kind == "root":
-            rows.append(rf"{names[d.symbol]} &: \text{{{escape_text(d.meaning)}}}")
+            # One row per root set: r_{1,k}: the roots of p(x) = ... (values of numeric roots).
+            k = d.symbol.name.rstrip("_")[1:].partition("_")[0]
+            meaning, _, value = d.meaning.partition("; value ")
+            if ("root", k, meaning) not in done:
+                done.add(("root", k, meaning))
+                r, x = d.value, sp.Symbol("x")
+                poly = (r.polynomial(x) if isinstance(r, LevelRoot)
+                        else r.poly.as_expr().subs(r.poly.gen, x))
+                degree = sp.Poly(poly, x).degree()
+                row = (rf"r_{{{k},k}} &: \text{{the roots of }} {_poly_latex(sp.Poly(poly, x), None)} = 0,\ "
+                       rf"k = 0, \dots, {degree - 1} \text{{ (ascending)}}")
+                if poly.free_symbols - {x}:
+                    row += r"\text{; found numerically where numbers are given}"
+                rows.append(row)
+            if value:
+                rows.append(rf"{names[d.symbol]} &\approx {value.partition(' = ')[2]}")
             continue
         rows += _rows(names[d.symbol], d.value, pr)
     return _align(rows)

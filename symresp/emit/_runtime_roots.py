@@ -13,8 +13,18 @@ that block: the other levels stay closed-form), see :mod:`symresp.emit._eigen`:
 * ``_semi_closed_jacobian``: the exact Jacobian (differentiated through the roots) where the
   implicit levels are apart, central differences of the stable values where they are not.
 
-Imports: nothing (a text constant).
+Semi-closed blocks of any size (exact factors of any degree; weights kept as exact
+definitions, :class:`symresp.spectrum.BlockWeight`) use ``_semieig``/``_semiw``
+(:func:`semi_runtime`), and their Jacobian is taken by central differences.
+
+Imports: inspect and :mod:`symresp.spectrum` (whose numpy functions are copied as text).
 """
+
+import inspect
+
+from ..spectrum._eigen_numeric import _semi_matrix, _semieig_a, _semiw_a
+
+__all__ = ["ROOTS_RUNTIME", "semi_runtime"]
 
 ROOTS_RUNTIME = r'''
 # ------------------------------------------------------------------------------------------
@@ -92,4 +102,54 @@ def _semi_closed_jacobian(J, value, T, params, energies, implicit):
     fd = numpy.stack(numpy.broadcast_arrays(*cols), axis=-1)
     close = numpy.broadcast_to(close, numpy.shape(J)[:-1])
     return numpy.where(close[..., None], fd, J)
+'''
+
+
+def semi_runtime() -> str:
+    """The runtime of semi-closed blocks: the numpy functions of
+    :mod:`symresp.spectrum._eigen_numeric` (one implementation for the engine and the emitted
+    modules), their scalar flavours and the Jacobian by central differences."""
+    body = "\n\n".join(inspect.getsource(f) for f in (_semi_matrix, _semieig_a, _semiw_a))
+    return SEMI_HEADER + body + SEMI_TAIL
+
+
+SEMI_HEADER = r'''
+# ------------------------------------------------------------------------------------------
+# Semi-closed blocks: exact block matrices diagonalised at every point; their weights
+# Tr(P_a A P_b B) from the eigenvectors.
+# ------------------------------------------------------------------------------------------
+
+'''
+
+SEMI_TAIL = r'''
+
+def _semieig_s(n, spec, explicit, coeffs, entries, T):
+    out = _semieig_a(n, spec, explicit, coeffs, entries, T)
+    return tuple(v.item() for v in out[:-1]) + (out[-1],)
+
+
+def _semiw_s(*args):
+    return tuple(v.item() for v in _semiw_a(*args))
+
+
+#: Relative step of the central differences of the semi-closed Jacobian (truncation ~1e-12,
+#: rounding ~1e-10 of the value's scale).
+_SEMI_FD_STEP = 1e-6
+
+
+def _fd_jacobian(value, T, params):
+    """d value / d parameter by central differences, stacked along the last axis (the weights
+    of semi-closed blocks are known numerically only)."""
+    if not params:
+        return numpy.zeros(numpy.shape(value(T)) + (0,))
+    cols = []
+    for i, p in enumerate(params):
+        p = numpy.asarray(p, dtype=float)
+        step = _SEMI_FD_STEP * (1.0 + numpy.abs(p))
+        up = list(params)
+        down = list(params)
+        up[i] = p + step
+        down[i] = p - step
+        cols.append((numpy.asarray(value(T, *up)) - numpy.asarray(value(T, *down))) / (2 * step))
+    return numpy.stack(numpy.broadcast_arrays(*cols), axis=-1)
 '''

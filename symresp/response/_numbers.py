@@ -34,7 +34,8 @@ from mpmath.ctx_mp import MPContext
 
 from ..errors import InputError
 from ..numeric import real_roots
-from ..spectrum import LevelRoot, real_root
+from ..spectrum import BlockWeight, LevelRoot, real_root
+from ..spectrum._implicit import weight_arrays, weight_mp
 
 __all__ = ["evaluate_exact", "evaluate_mp", "to_mp", "evaluate_precise", "evaluate_arrays",
            "compile_expression", "PRECISE_DIGITS", "PREC_BITS"]
@@ -148,15 +149,16 @@ def _as_basic(expr: object) -> sp.Basic:
 class _Backend:
     """Number system: constants and functions of one arithmetic."""
 
-    __slots__ = ("number", "constant", "functions", "power", "root")
+    __slots__ = ("number", "constant", "functions", "power", "root", "weight")
 
     def __init__(self, number: Callable, constant: Mapping, functions: Mapping,
-                 power: Callable, root: Callable) -> None:
+                 power: Callable, root: Callable, weight: Callable) -> None:
         self.number = number
         self.constant = constant
         self.functions = functions
         self.power = power
         self.root = root          # root(k, coefficients): k-th smallest real root
+        self.weight = weight      # weight(w, evaluate, cache): a semi-closed weight (BlockWeight)
 
 
 def _mp_backend(ctx: MPContext, digits: int) -> _Backend:
@@ -179,8 +181,13 @@ def _mp_backend(ctx: MPContext, digits: int) -> _Backend:
     def root(k: int, coeffs: list):
         return real_root(k, coeffs, ctx, extra=4 * digits)
 
+    def weight(w, evaluate, cache):
+        # Tr(P_a L P_b R) of the exact block matrices, diagonalised at this precision
+        v = weight_mp(w, lambda e: mp.mpmathify(evaluate(e)), digits + 5, cache)
+        return ctx.mpc(v) if mp.mpmathify(v).imag else ctx.mpf(mp.mpmathify(v).real)
+
     return _Backend(number, {sp.pi: ctx.pi, sp.E: ctx.e, sp.I: ctx.mpc(0, 1)}, functions, power,
-                    root)
+                    root, weight)
 
 
 def _np_backend() -> _Backend:
@@ -203,19 +210,26 @@ def _np_backend() -> _Backend:
     def root(k: int, coeffs: list):
         return real_roots(coeffs)[..., k].astype(complex)
 
+    def weight(w, evaluate, cache):
+        def real_part(e):       # the block matrices are evaluated as real where they are real
+            v = np.asarray(evaluate(e))
+            return v.real if np.iscomplexobj(v) and not np.any(v.imag) else v
+        return np.asarray(weight_arrays(w, real_part, cache), dtype=complex)
+
     return _Backend(number, {sp.pi: complex(np.pi), sp.E: complex(np.e), sp.I: 1j}, functions,
-                    power, root)
+                    power, root, weight)
 
 
 class _Walker:
     """Evaluates one expression tree with a backend; memoises shared sub-trees."""
 
-    __slots__ = ("backend", "env", "memo")
+    __slots__ = ("backend", "env", "memo", "blocks")
 
     def __init__(self, backend: _Backend, env: Mapping[sp.Symbol, object]) -> None:
         self.backend = backend
         self.env = env
         self.memo: dict[sp.Basic, object] = {}
+        self.blocks: dict = {}         # diagonalised semi-closed blocks, shared by their weights
 
     def value_of(self, node: sp.Basic):
         hit = self.memo.get(node)
@@ -255,6 +269,8 @@ class _Walker:
             return b.power(base, self.value_of(node.exp))
         if isinstance(node, LevelRoot):
             return b.root(int(node.args[0]), [self.value_of(c) for c in node.args[1:]])
+        if isinstance(node, BlockWeight):
+            return b.weight(node, self.value_of, self.blocks)
         f = b.functions.get(node.func)
         if f is not None and len(node.args) == 1:
             return f(self.value_of(node.args[0]))
@@ -291,5 +307,24 @@ def compile_expression(expr: sp.Expr, args: Sequence[sp.Symbol], backend: str = 
     5.0
     """
     e = expr if isinstance(expr, sp.Basic) else sp.Integer(expr)
+    if e.has(BlockWeight):
+        # Semi-closed weights are definitions on exact block matrices, not printable code:
+        # the tree walk diagonalises the blocks at each call.
+        return _walking_function(e, tuple(args), backend, digits)
     roots = {"LevelRoot": _level_root_mp if backend == "mpmath" else _level_root_np}
     return sp.lambdify(tuple(args), _exact_roots(e, digits), modules=[roots, backend])
+
+
+def _walking_function(expr: sp.Expr, args: tuple, backend: str, digits: int) -> Callable:
+    """``compile_expression`` for expressions with semi-closed weights: a tree walk per call."""
+    if backend == "mpmath":
+        def f(*vals):
+            ctx = MPContext()
+            ctx.dps = digits
+            env = {k: ctx.mpmathify(v) for k, v in zip(args, vals)}
+            return mp.mpmathify(_Walker(_mp_backend(ctx, digits), env).value_of(expr))
+        return f
+
+    def g(*vals):
+        return evaluate_arrays(expr, dict(zip(args, vals)))
+    return g

@@ -44,7 +44,7 @@ from sympy.core.mul import _keep_coeff
 from ..conventions import RESERVED_NAMES, beta, omega, t
 from ..errors import BudgetExceeded, InputError
 from ..models import Clock, checkpoint, current_clock
-from ..spectrum import LevelRoot
+from ..spectrum import BlockWeight, LevelRoot
 from ._derive import Derivation, _equal_weights, _sample_point, present, present_shortest
 from ._present import boltzmann_form, merge_exponentials
 from ._render import formula_text, presentation_text
@@ -220,6 +220,31 @@ class _Names:
         return sp.Symbol(name, **assumptions)
 
 
+#: Note under a presentation with semi-closed weights (Tr(P[E]*A*P[E']*B) kept as such).
+SEMI_NOTE = ("Tr(P[E]*A*P[E']*B) is the weight of a semi-closed block, P[E] the projector onto "
+             "the eigenspace of level E of its exact block matrix; found numerically where "
+             "numbers are given")
+
+
+def poly_text(poly: sp.Expr, x: sp.Symbol) -> str:
+    """A polynomial in x by descending powers, each coefficient factored when short:
+    ``x**3 - 2*U*x**2 + (U**2 - 8*tc**2)*x + 2*U*tc**2``."""
+    terms = []
+    for (k,), c in sp.Poly(poly, x).terms():
+        power = "" if k == 0 else ("x" if k == 1 else f"x**{k}")
+        if c.free_symbols and len(sp.Add.make_args(c)) < 8:
+            c = sp.factor(c)
+        if power and c in (1, -1):
+            term = ("-" if c == -1 else "") + power
+        elif power:
+            body = sp.sstr(c)
+            term = f"({body})*{power}" if isinstance(c, sp.Add) else f"{body}*{power}"
+        else:
+            term = sp.sstr(c)
+        terms.append(term)
+    return " + ".join(terms).replace("+ -", "- ") if terms else "0"
+
+
 @lru_cache(maxsize=4096)
 def _cost(expr: sp.Expr) -> int:
     """The measured cost of a form: the length of its printed text."""
@@ -359,20 +384,29 @@ class _Builder:
         x = sp.Symbol("x")
         polys: list[sp.Expr] = []
         self.root_map: dict[sp.Expr, sp.Symbol] = {}
+        found = []
         for r in atoms:
             if isinstance(r, LevelRoot):
                 poly, index = r.polynomial(x), int(r.args[0])
-                meaning = (f"root {index} (ascending, from 0) of {sp.sstr(poly)} in x; "
-                           "parameter-dependent: solved numerically where numbers are given")
             else:
                 poly, index = r.poly.as_expr().subs(r.poly.gen, x), r.index
-                meaning = (f"root {index} (ascending, from 0) of {sp.sstr(poly)} in x "
-                           f"= {sp.N(r, 15)}")
             if poly not in polys:
                 polys.append(poly)
-            k = polys.index(poly) + 1
+            found.append((r, polys.index(poly) + 1, index))
+        # One meaning per root set: "the roots of p(x) = ..." (the where-list prints it once).
+        meanings = {}
+        for k, poly in enumerate(polys, 1):
+            degree = sp.Poly(poly, x).degree()
+            meaning = f"the roots of p(x) = {poly_text(poly, x)}, k = 0..{degree - 1} ascending"
+            if poly.free_symbols - {x}:
+                meaning += "; parameter-dependent: found numerically where numbers are given"
+            meanings[k] = meaning
+        for r, k, index in sorted(found, key=lambda f: (f[1], f[2])):
             sym = self.names(f"r{k}_{index}", real=True)
             self.root_map[r] = sym
+            meaning = meanings[k]
+            if not r.free_symbols:
+                meaning += f"; value {sym.name} = {sp.N(r, 15)}"
             self.defs.append(Definition(sym, r, "root", meaning))
 
     def _radicals(self) -> None:
@@ -437,7 +471,9 @@ class _Builder:
                         rep[r] = m if r > 0 else -m
             expr = expr.xreplace(rep) if rep else expr
         if self.root_map:
-            expr = expr.xreplace({r: s for r, s in self.root_map.items() if expr.has(r)})
+            # (the levels of a semi-closed weight sit inside its block, out of reach of has())
+            semi = expr.has(BlockWeight)
+            expr = expr.xreplace({r: s for r, s in self.root_map.items() if semi or expr.has(r)})
         if not self.radicals:
             return expr
         rep = {}
@@ -913,6 +949,9 @@ def _present(d: Derivation, qs: tuple[str, ...], point: dict | None, clock: Cloc
         explicit = sum(len(df.symbol.name) + 5 + _cost(df.value) for df in kept if df.kind == kind)
         if explicit > COLLAPSE_LENGTH:
             collapsed.append(kind)
+    if any(lv.implicit for lv in d.levels) and any(
+            sp.sympify(w).has(BlockWeight) for w in d.level_weights.values()):  # safe: sympy objects from the derivation
+        b.notes.append(SEMI_NOTE)
     return Presentation(levels, tuple(transitions), kept, tuple(formulas), tuple(lines), qn,
                         tuple(b.notes), conv.describe(), tuple(formula_symbols), tuple(order),
                         tuple(collapsed))

@@ -231,7 +231,7 @@ def where_lines(definitions, rank, *, indent: str = "  ", title: str = "where",
     if not definitions:
         return []
     out = [f"{indent}{title}"]
-    done: set[str] = set()
+    done: set = set()
     pending: list[str] = []
 
     def flush() -> None:
@@ -251,8 +251,15 @@ def where_lines(definitions, rank, *, indent: str = "  ", title: str = "where",
                 out += wrap(f"{indent}  ", generic[d.kind], indent=indent + "    ")
             continue
         if d.kind == "root":
+            # One line per root set (r1_0, r1_1, ... share "r1_k: the roots of p(x) = ...").
             flush()
-            out += wrap(f"{indent}  {d.symbol.name}: ", d.meaning, indent=indent + "    ")
+            head, _, _ = d.symbol.name.rpartition("_")
+            meaning, _, value = d.meaning.partition("; value ")
+            if (head, meaning) not in done:
+                done.add((head, meaning))
+                out += wrap(f"{indent}  {head}_k: ", meaning, indent=indent + "    ")
+            if value:
+                out += wrap(f"{indent}    ", value, indent=indent + "    ")
             continue
         text = f"{d.symbol.name} = {formula_text(d.value, rank)}"
         if len(text) <= 40 and d.kind in ("population", "frequency", "radical", "constant"):

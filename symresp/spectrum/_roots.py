@@ -1,7 +1,7 @@
 r"""Implicit levels: the k-th real root of a polynomial whose coefficients depend on parameters
 (layer: spectrum).
 
-Owns :class:`LevelRoot`. Imports sympy and mpmath only.
+Owns :class:`LevelRoot`. Imports sympy, mpmath and numpy.
 
 A block mixing several parameters may have an irreducible factor of degree >= 3 in its
 characteristic polynomial. Its roots have no closed form, so the level is kept exactly as
@@ -14,17 +14,86 @@ numbers it evaluates numerically to any precision (the semi-closed form).
 from __future__ import annotations
 
 import mpmath
+import numpy
 import sympy as sp
 
-__all__ = ["LevelRoot", "real_root"]
+__all__ = ["LevelRoot", "real_root", "real_roots"]
+
+
+def real_roots(coeffs, ctx=mpmath.mp, extra: int = 200) -> tuple:
+    """All real roots, ascending, of ``coeffs`` (highest power first) in the mpmath context
+    ``ctx``; imaginary parts of the coefficients and roots (rounding) are dropped.
+
+    The roots of a Hermitian block's characteristic factor are real and, for an irreducible
+    factor, simple: double-precision guesses (eigenvalues of the companion matrix) are polished
+    by Newton's method at the context's precision, and checked; where that fails (roots that
+    nearly coincide at this point) mpmath's ``polyroots`` takes over. Cached per coefficients
+    and precision (a formula holds each root many times).
+    """
+    if not hasattr(ctx, "prec"):          # the mpmath module itself: its global context
+        ctx = mpmath.mp
+    cs = tuple(ctx.re(ctx.mpmathify(c)) for c in coeffs)
+    key = (cs, ctx.prec)
+    hit = _ALL_ROOTS.get(key)
+    if hit is not None:
+        return hit
+    out = _newton_roots(cs, ctx)
+    if out is None:
+        roots = ctx.polyroots(list(cs), maxsteps=200, extraprec=extra)
+        out = tuple(sorted(ctx.re(r) for r in roots))
+    if len(_ALL_ROOTS) > 4096:
+        _ALL_ROOTS.clear()
+    _ALL_ROOTS[key] = out
+    return out
+
+
+def _newton_roots(cs: tuple, ctx) -> tuple | None:
+    n = len(cs) - 1
+    lead = cs[0]
+    if n < 1 or lead == 0:
+        return None
+    try:
+        guesses = numpy.roots([float(c / lead) for c in cs])
+    except (OverflowError, ValueError, numpy.linalg.LinAlgError):
+        return None
+    if not numpy.all(numpy.isfinite(guesses)):
+        return None
+    dcs = [c * (n - i) for i, c in enumerate(cs[:-1])]
+    tol = ctx.mpf(2) ** (8 - ctx.prec)
+    out = []
+    for g in sorted(guesses.real):
+        x = ctx.mpf(float(g))
+        for _ in range(100):
+            p = ctx.mpf(0)
+            for c in cs:
+                p = p * x + c
+            dp = ctx.mpf(0)
+            for c in dcs:
+                dp = dp * x + c
+            if dp == 0:
+                return None
+            step = p / dp
+            x -= step
+            if abs(step) <= tol * max(1, abs(x)):
+                break
+        else:
+            return None
+        out.append(x)
+    out.sort()
+    scale = max(1, max(abs(x) for x in out))
+    if any(b - a <= ctx.mpf(2) ** (16 - ctx.prec) * scale for a, b in zip(out, out[1:])):
+        return None                    # two guesses met one root: let polyroots decide
+    return tuple(out)
 
 
 def real_root(k: int, coeffs, ctx=mpmath.mp, extra: int = 200):
     """k-th smallest real root (k = 0, 1, ...) of ``coeffs`` (highest power first) in the mpmath
-    context ``ctx``; imaginary parts of the coefficients and roots (rounding) are dropped."""
-    roots = ctx.polyroots([ctx.re(ctx.mpmathify(c)) for c in coeffs], maxsteps=200,
-                          extraprec=extra)
-    return sorted(ctx.re(r) for r in roots)[int(k)]
+    context ``ctx`` (see :func:`real_roots`)."""
+    return real_roots(coeffs, ctx, extra)[int(k)]
+
+
+# All real roots of numeric polynomials by precision (immutable keys; pure function values).
+_ALL_ROOTS: dict = {}
 
 
 class LevelRoot(sp.Function):
@@ -58,10 +127,17 @@ class LevelRoot(sp.Function):
         k, *coeffs = self.args
         if any(c.free_symbols for c in coeffs):
             return None
-        dps = mpmath.libmp.prec_to_dps(prec) + 10
+        dps = 15 * (1 + (mpmath.libmp.prec_to_dps(prec) + 10) // 15)  # shared by nearby precisions
+        hit = _VALUES.get((self, dps))
+        if hit is not None:
+            return hit
         with mpmath.workdps(dps):
             value = real_root(int(k), [sp.N(c, dps) for c in coeffs], extra=4 * dps)
-            return sp.Float(value, dps)
+            out = sp.Float(value, dps)
+        if len(_VALUES) > 4096:
+            _VALUES.clear()
+        _VALUES[(self, dps)] = out
+        return out
 
     def _latex(self, printer, exp=None):
         k = self.args[0]
@@ -73,3 +149,8 @@ class LevelRoot(sp.Function):
         _, *coeffs = self.args
         n = len(coeffs) - 1
         return sum((c * var ** (n - i) for i, c in enumerate(coeffs)), sp.Integer(0))
+
+
+# Values of parameter-free implicit roots by precision (immutable keys; the values are pure
+# functions of them): one formula holds the same root many times.
+_VALUES: dict = {}

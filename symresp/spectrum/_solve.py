@@ -30,7 +30,7 @@ degree <= 2 are explicit, and :math:`\alpha_k(\lambda)` is simplified with targe
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from fractions import Fraction
 from typing import Literal
 
@@ -41,24 +41,31 @@ from sympy.polys.constructor import construct_domain
 from sympy.polys.matrices import DomainMatrix
 
 from ..algebra import SparseForm
-from ..errors import BudgetExceeded, ClosedFormError
-from ..models import Clock, System
+from ..errors import BudgetExceeded
+from ..models import Clock, System, checkpoint
 from ._blocks import Block, BlockStructure, decompose
+from ._charpoly import factored_charpoly
+from ._implicit import BlockWeight, ImplicitBlock, weights_mp, weights_numpy
 from ._quadratic import Radical, Surd, bilinear
 from ._roots import LevelRoot
-from ._symmetry import (SECTOR_NAMES, decompose_entries, find_symmetries, split_block, transform,
-                        transform_blocks)
+from ._symmetry import (SECTOR_NAMES, _sparse_fmpq, decompose_entries, find_symmetries,
+                        split_block, transform, transform_blocks)
 
 __all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean", "is_zero_number"]
 
-#: Parametric irreducible factors of higher degree raise ClosedFormError, and so do larger
-#: blocks with a parametric implicit factor, or ones with more distinct levels: their weights,
-#: rational in the implicit roots, grow too large to be useful (measured: a 6-ring XXZ chain
-#: whose +-k sectors of 6 states repeat a cubic derives in 72 s but its evaluator takes minutes
-#: to generate; such a block now stops at once with the message below).
+#: Blocks with a parametric implicit factor up to these sizes get exact weights, rational in
+#: the implicit roots. Larger ones (a higher degree, a larger block, more distinct levels) are
+#: semi-closed: their weights Tr(P_a A P_b B) are kept as exact definitions evaluated
+#: numerically (:class:`BlockWeight`), because the rational forms grow too large to be useful
+#: (measured: a 6-ring XXZ chain whose +-k sectors of 6 states repeat a cubic derives in 72 s
+#: with exact weights, and its evaluator takes minutes to generate).
 MAX_IMPLICIT_DEGREE = 3
-MAX_IMPLICIT_MINIMAL = 4
-MAX_IMPLICIT_BLOCK = 4
+MAX_IMPLICIT_MINIMAL = 3
+MAX_IMPLICIT_BLOCK = 3
+#: ... and at most this many parameters in the factor: a cubic block of a spin 5/2 with D, E
+#: and h has exact weights of thousands of terms (measured: 12 s to derive, 36 s to write
+#: its evaluator; 0.9 s and 2.2 s semi-closed).
+MAX_IMPLICIT_PARAMETERS = 2
 
 _x = sp.Symbol("x__block")  # block variable; a plain Symbol survives polys round trips
 
@@ -149,7 +156,7 @@ class BlockSolution:
     """Exact solution of one block (internal representation; see the module docstring)."""
 
     block: Block
-    kind: Literal["scaled", "symbolic"]
+    kind: Literal["scaled", "symbolic", "semi"]
     shift: sp.Expr
     scale: sp.Expr
     factors: tuple[Factor, ...]
@@ -161,6 +168,7 @@ class BlockSolution:
     domain: object = None             # symbolic: the sympy domain K of the block entries
     kalphas: tuple = ()               # symbolic: per factor, per root, tuple of Surd (None if implicit)
     alpha_dens: tuple = ()            # symbolic: per factor, per root, denominator of alphas (1 if explicit)
+    entries: tuple = ()               # the block matrix, sparse (i, j, value) (set by solve)
 
     def domain_alpha(self, factor: int, root: int) -> tuple:
         """alpha_k(lambda) as Surds over :meth:`field` (explicit roots only)."""
@@ -250,6 +258,10 @@ class Spectrum:
 
         For a symmetry sector the local matrix is :math:`V_s^+ X V_t` (see ``_symmetry``).
         """
+        key = ("split", len(op), hash(frozenset(op.items())))
+        hit = _memo_of(self).get(key)
+        if hit is not None and hit[0] == op:
+            return hit[1]
         where = self.structure.locations()
         raw: dict[tuple[int, int], dict[tuple[int, int], sp.Expr]] = {}
         gauges = {s.block.parent: s.gauge for s in self.solutions}
@@ -287,6 +299,7 @@ class Spectrum:
                                   sj.V if sj is not None else None, (sizes[pi], sizes[pj]))
                     if t:
                         out[(bi, bj)] = t
+        _memo_of(self)[key] = (op, out)
         return out
 
     # ---------------------------------------------------------------- weights
@@ -317,6 +330,12 @@ class Spectrum:
                         pa = self.index[(bi, fa, ra)]
                         out[(pa, pa)] = ca * cb * self.parts[pa].multiplicity
                 continue
+            if "semi" in (si.kind, sj.kind):
+                semi = self._semi_weights(bi, bj, a_blk, b_blk, same or As == Bs)
+                out.update(semi)
+                if same:                # the pair (bj, bi) is skipped: W_ba = W_ab (A = B)
+                    out.update({(pb, pa): w for (pa, pb), w in semi.items()})
+                continue
             for (fa, ra, fb, rb), w in _pair_weights(si, sj, a_blk, b_blk).items():
                 if w != 0:
                     pa = self.index[(bi, fa, ra)]
@@ -326,11 +345,12 @@ class Spectrum:
                         out[(pb, pa)] = w
         return out
 
-    def expectations(self, A: SparseForm) -> dict[int, sp.Expr]:
-        r"""Exact :math:`\mathrm{Tr}(P_a A)` for every part a with a non-zero value."""
-        return self.split_expectations(self.split(A))
+    def expectations(self, A: SparseForm, which: Literal["A", "B"] = "A") -> dict[int, sp.Expr]:
+        r"""Exact :math:`\mathrm{Tr}(P_a A)` for every part a with a non-zero value (``which``
+        names the operator in semi-closed weights)."""
+        return self.split_expectations(self.split(A), which)
 
-    def split_expectations(self, As: dict) -> dict[int, sp.Expr]:
+    def split_expectations(self, As: dict, which: Literal["A", "B"] = "A") -> dict[int, sp.Expr]:
         """:meth:`expectations` from an operator already grouped by :meth:`split`."""
         out: dict[int, sp.Expr] = {}
         for (bi, bj), a_blk in As.items():
@@ -344,6 +364,9 @@ class Spectrum:
                     for ra in range(f.degree):
                         pa = self.index[(bi, fa, ra)]
                         out[pa] = c * self.parts[pa].multiplicity
+                continue
+            if s.kind == "semi":
+                out.update(self._semi_expectations(bi, a_blk, 1 if which == "A" else 2))
                 continue
             # Tr(M^k A) depends on the block only: computed once for all its roots.
             t = [_trace_q(s.powers[k], a_blk) for k in range(s.degree)] if s.kind == "scaled" else []
@@ -363,6 +386,193 @@ class Spectrum:
                     if val != 0:
                         out[self.index[(bi, fa, ra)]] = val
         return out
+
+    # ---------------------------------------------------------------- semi-closed blocks
+    def block_parts(self, bi: int) -> list[int]:
+        """Indices (into ``parts``) of the parts of block ``bi``, in the block's part order."""
+        key = ("parts", bi)
+        if key not in _memo_of(self):
+            _memo_of(self)[key] = [k for k, p in enumerate(self.parts) if p.block == bi]
+        return _memo_of(self)[key]
+
+    def implicit_block(self, bi: int) -> ImplicitBlock:
+        """The exact data of block ``bi`` for numerical evaluation (see :mod:`._implicit`)."""
+        key = ("implicit", bi)
+        if key in _memo_of(self):
+            return _memo_of(self)[key]
+        sol = self.solutions[bi]
+        n = sol.block.size
+        sector = sol.block.sector
+        V = sector.V if sector is not None and sector.V is not None else None
+        gram: list = []
+        if sol.gauge is not None or V is not None:
+            rows = len(sol.gauge) if sol.gauge is not None else V.nrows()
+            d2 = [sp.Integer(1)] * rows if sol.gauge is None else \
+                [sp.Rational(sp.expand(g ** 2)) for g in sol.gauge]
+            if V is None:
+                G = flint.fmpq_mat(n, n)
+                for i in range(n):
+                    G[i, i] = flint.fmpq(int(d2[i].p), int(d2[i].q))
+            else:
+                D2 = flint.fmpq_mat(rows, rows)
+                for i in range(rows):
+                    D2[i, i] = flint.fmpq(int(d2[i].p), int(d2[i].q))
+                G = V.transpose() * D2 * V
+            gram = [_q(G[i, j]) for i in range(n) for j in range(n)]
+        parts = [(self.parts[k].energy, self.parts[k].multiplicity) for k in self.block_parts(bi)]
+        out = ImplicitBlock(n, sol.entries, gram, parts)
+        _memo_of(self)[key] = out
+        return out
+
+    def _semi_weights(self, bi: int, bj: int, a_blk: dict, b_blk: dict, symmetric: bool
+                      ) -> dict[tuple[int, int], sp.Expr]:
+        """Weights between the parts of two blocks, one of them semi-closed, as BlockWeights.
+
+        With A = B the weight W_ab = Tr(P_a A P_b A) = W_ba is written once, with the part of
+        lower index first, so both directions are the same object.
+        """
+        X, Y = self.implicit_block(bi), self.implicit_block(bj)
+        L, R = _sparse_tuple(a_blk), _sparse_tuple(b_blk)
+        pa, pb = self.block_parts(bi), self.block_parts(bj)
+        if _several_factors(self.solutions[bi]) or _several_factors(self.solutions[bj]):
+            keep = [True] * (len(pa) * len(pb))
+        else:
+            keep = _nonzero_weights(X, Y, L, R)
+        out = {}
+        for a, ka in enumerate(pa):
+            for b, kb in enumerate(pb):
+                if not keep[a * len(pb) + b]:
+                    continue
+                if symmetric and (bj, b) < (bi, a):
+                    w = BlockWeight(0, Y, b, X, a, R, L)
+                else:
+                    w = BlockWeight(0, X, a, Y, b, L, R)
+                out[(ka, kb)] = w
+        return out
+
+    def _semi_expectations(self, bi: int, a_blk: dict, kind: int) -> dict[int, sp.Expr]:
+        X = self.implicit_block(bi)
+        L = _sparse_tuple(a_blk)
+        pa = self.block_parts(bi)
+        keep = [True] * (len(pa) ** 2) if _several_factors(self.solutions[bi]) else \
+            _nonzero_weights(X, X, L, sp.Tuple())
+        return {k: BlockWeight(kind, X, a, X, a, L, sp.Tuple()) for a, k in enumerate(pa)
+                if keep[a * len(pa) + a]}
+
+
+def _into_sectors(Hb: dict, sectors, n: int) -> list[dict]:
+    """dual_s H V_s for every sector s of a block: one decomposition H = sum_g g R_g and one
+    rational matrix per atom g for all sectors (flint products)."""
+    comps = [(g, _sparse_fmpq(comp, n, n)) for g, comp in decompose_entries(Hb).items()]
+    out = []
+    for sec in sectors:
+        checkpoint("carrying the Hamiltonian into a symmetry sector", f"size {n}")
+        t: dict[tuple[int, int], sp.Expr] = {}
+        for g, X in comps:
+            for (i, j), v in _nonzero_entries(sec.dual * X * sec.V):
+                t[(i, j)] = t.get((i, j), sp.Integer(0)) + g * v
+        out.append({k: v for k, v in t.items() if v != 0})
+    return out
+
+
+def _memo_of(spec: Spectrum) -> dict:
+    """Derived data of one spectrum (operators carried into its sectors, implicit blocks),
+    kept beside it rather than in a field, so that subclasses keep their own constructor
+    signature. Bounded: the spectra themselves are cached on their systems."""
+    hit = _SPECTRUM_MEMO.get(id(spec))
+    if hit is None or hit[0] is not spec:
+        if len(_SPECTRUM_MEMO) >= 16:
+            _SPECTRUM_MEMO.clear()
+        hit = _SPECTRUM_MEMO[id(spec)] = (spec, {})
+    return hit[1]
+
+
+# id(spectrum) -> (spectrum, memo); see _memo_of.
+_SPECTRUM_MEMO: dict = {}
+
+
+def _several_factors(sol: BlockSolution) -> bool:
+    """Whether a block's characteristic polynomial has more than one distinct factor.
+
+    Evaluated numerically, the eigenvalues of such a block are told apart by factor only as
+    well as rounding allows: roots of two factors may nearly coincide (the tunnel-split
+    doublets of a large spin, whose two factors are the two parities of a hidden C2 axis), and
+    then the eigenvectors of the pair mix. Sums over all pairs of its parts are unchanged by
+    such a mix, so every weight of these parts is kept, also those that vanish identically
+    (they evaluate to zero), rather than dropping some on the strength of the exact labels.
+    """
+    return len(sol.factors) > 1
+
+
+def _nonzero_entries(Y: flint.fmpq_mat):
+    """((i, j), value) of the non-zero entries of a rational matrix, values as sympy Rationals."""
+    cols = Y.ncols()
+    for k, v in enumerate(Y.entries()):
+        if v != 0:
+            yield (k // cols, k % cols), sp.Rational(int(v.p), int(v.q))
+
+
+def _sparse_tuple(blk: dict) -> sp.Tuple:
+    return sp.Tuple(*[sp.Tuple(i, j, v) for (i, j), v in sorted(blk.items()) if v != 0])
+
+
+#: Relative size below which a semi-closed weight counts as zero in double precision, and the
+#: range [ZERO_DOUBLE, SURE_DOUBLE) where it is confirmed at ZERO_TEST_DIGITS digits.
+ZERO_DOUBLE, SURE_DOUBLE = 1e-12, 1e-6
+
+
+def _sample_values(symbols, k: int) -> dict:
+    """Fixed irrational-looking rational values (positive ones positive, the others of
+    alternating sign): generic points for the zero test of semi-closed weights."""
+    out = {}
+    for i, s in enumerate(sorted(symbols, key=lambda x: x.name)):
+        v = sp.Rational(1000 + 37 * (i + 1) * (k + 2), 997 + 13 * i + 5 * k)
+        out[s] = v if s.is_positive or s.is_nonnegative or (i + k) % 2 == 0 else -v
+    return out
+
+
+def _nonzero_weights(X: ImplicitBlock, Y: ImplicitBlock, L, R) -> list[bool]:
+    """Which weights Tr(P_a L P_b R) between the parts of X and Y are not identically zero.
+
+    They are algebraic functions of the parameters; one that vanishes at two generic points is
+    zero (common practice for exact zero tests of such functions). Double precision decides
+    values far from zero at either point, or at rounding level at both; the few others (tiny
+    but possibly real weights, e.g. between distant levels of a large spin) are evaluated at
+    SEMI_ZERO_DIGITS digits.
+    """
+    checkpoint("testing semi-closed weights for zero", f"blocks of {X.n} and {Y.n} states")
+    syms = X.free_symbols | Y.free_symbols | L.free_symbols | R.free_symbols
+    points = [_sample_values(syms, k) for k in range(2)]
+    sure: list[bool] | None = None
+    small: list[bool] | None = None
+    scale = 1.0
+    for point in points:
+        def num(e, point=point):
+            return complex(e.xreplace(point)) if e.free_symbols else complex(e)
+        size = (sum(abs(num(v)) for _, _, v in L) or 1.0) * \
+            ((sum(abs(num(v)) for _, _, v in R) or 1.0) if len(R) else 1.0)
+        scale = size
+        values = [abs(complex(w)) for w in weights_numpy(X, Y, L, R, num)]
+        s_ = [v >= SURE_DOUBLE * size for v in values]
+        z_ = [v < ZERO_DOUBLE * size for v in values]
+        sure = s_ if sure is None else [a or b for a, b in zip(sure, s_)]
+        small = z_ if small is None else [a and b for a, b in zip(small, z_)]
+    unsure = [i for i, (a, b) in enumerate(zip(sure, small)) if not a and not b]
+    keep = list(sure)
+    if unsure:
+        point = points[0]
+        with mpmath.workdps(SEMI_ZERO_DIGITS):
+            precise = weights_mp(X, Y, L, R, lambda e: mpmath.mpmathify(
+                sp.N(e.xreplace(point), SEMI_ZERO_DIGITS)), SEMI_ZERO_DIGITS, {})
+        cut = mpmath.mpf(10) ** (10 - SEMI_ZERO_DIGITS) * scale
+        for i in unsure:
+            keep[i] = bool(abs(precise[i]) > cut)
+    return keep
+
+
+#: Digits of the evaluation that decides semi-closed weights between 1e-12 and 1e-6 of their
+#: scale in double precision (an exact zero is then below ~1e-28 of the scale; the cut is 1e-22).
+SEMI_ZERO_DIGITS = 32
 
 
 def _scalar(blk: dict, n: int) -> sp.Expr | None:
@@ -391,7 +601,7 @@ def _vanishes(coeffs: dict[tuple[int, int], sp.Expr], xa: sp.Expr, xb: sp.Expr) 
     if any(not c.is_number for c in coeffs.values()):
         return False
     with mpmath.workdps(ZERO_TEST_DIGITS):
-        va, vb = _root_value(xa), _root_value(xb)
+        va, vb = root_value(xa), root_value(xb)
         total = mpmath.mpf(0)
         size = mpmath.mpf(0)
         for (p, q), c in coeffs.items():
@@ -402,7 +612,9 @@ def _vanishes(coeffs: dict[tuple[int, int], sp.Expr], xa: sp.Expr, xb: sp.Expr) 
         return bool(abs(total) <= size * mpmath.mpf(10) ** (15 - ZERO_TEST_DIGITS))
 
 
-def _root_value(x: sp.Expr):
+def root_value(x: sp.Expr):
+    """The value of an exact algebraic constant (CRootOf) at ZERO_TEST_DIGITS + 10 digits, as
+    an mpmath number, computed once per root."""
     hit = _ROOT_VALUES.get(x)
     if hit is None:
         hit = mpmath.mpmathify(sp.N(x, ZERO_TEST_DIGITS + 10))
@@ -438,7 +650,7 @@ def is_zero_number(w: sp.Expr) -> bool:
     if not w.has(sp.CRootOf):
         return sp.expand(w) == 0
     with mpmath.workdps(ZERO_TEST_DIGITS + 10):
-        roots = {r: sp.Float(_root_value(r), ZERO_TEST_DIGITS + 10) for r in w.atoms(sp.CRootOf)}
+        roots = {r: sp.Float(root_value(r), ZERO_TEST_DIGITS + 10) for r in w.atoms(sp.CRootOf)}
         value = sp.N(w.xreplace(roots), ZERO_TEST_DIGITS)
     return abs(complex(value)) < 10.0 ** (15 - ZERO_TEST_DIGITS)
 
@@ -750,10 +962,51 @@ def _poly_mul(K, p: list, q: list) -> list:
     return out
 
 
+def _explicit_roots(cs: tuple[sp.Expr, ...]) -> tuple[sp.Expr, ...]:
+    """Roots of a factor of degree 1 or 2 (ascending for a positive leading coefficient)."""
+    if len(cs) == 2:
+        return (sp.cancel(-cs[1] / cs[0]),)
+    a, b, c = cs
+    disc = sp.factor(sp.expand(b * b - 4 * a * c))
+    r = sp.sqrt(disc)
+    mid = sp.cancel(-b / (2 * a))
+    return (mid - r / (2 * a), mid + r / (2 * a))
+
+
+def _solve_semi(block: Block, flist: list[tuple[tuple[sp.Expr, ...], int]]) -> BlockSolution:
+    """A semi-closed block: exact factors and roots; weights are left to :class:`BlockWeight`."""
+    factors = []
+    for cs, mult in flist:
+        deg = len(cs) - 1
+        if deg <= 2:
+            factors.append(Factor(cs, mult, _explicit_roots(cs), True))
+        elif all(c.is_Rational for c in cs):
+            poly = sp.Poly(list(cs), _x)
+            factors.append(Factor(cs, mult, tuple(sp.CRootOf(poly, k) for k in range(deg)), True))
+        else:
+            factors.append(Factor(cs, mult, tuple(LevelRoot(k, *cs) for k in range(deg)), True))
+    D = sum(f.degree for f in factors)
+    return BlockSolution(block, "semi", sp.Integer(0), sp.Integer(1), tuple(factors), D, (), (), ())
+
+
+def _needs_semi(flist: list[tuple[tuple[sp.Expr, ...], int]], n: int) -> bool:
+    """Whether exact weights of this block would be too large (see MAX_IMPLICIT_*)."""
+    minimal = sum(len(cs) - 1 for cs, _ in flist)
+    return any(len(cs) >= 4 and not all(c.is_Rational for c in cs) and (
+        len(cs) - 1 > MAX_IMPLICIT_DEGREE or n > MAX_IMPLICIT_BLOCK or minimal > MAX_IMPLICIT_MINIMAL
+        or len(set().union(*[c.free_symbols for c in cs])) > MAX_IMPLICIT_PARAMETERS)
+        for cs, _ in flist)
+
+
 def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None,
-                    params: tuple[sp.Symbol, ...]) -> BlockSolution:
+                    params: tuple[sp.Symbol, ...], semi: bool = False) -> BlockSolution:
     n = block.size
     where = f"block {block.index} ({block.label_text() or 'no labels'}, size {n})"
+    # Characteristic polynomial and its factors over QQ[parameters] with FLINT; entries that
+    # are not polynomials with (Gaussian) rational coefficients take sympy's domains below.
+    fl = factored_charpoly(Hb, n, params, clock=clock, where=where)
+    if fl is not None and (semi or n > budget_max or _needs_semi(fl, n)):
+        return _solve_semi(block, fl)
     if n > budget_max:
         raise BudgetExceeded(
             f"{where} mixes several parameters and has size {n} > {budget_max}, too large for a "
@@ -762,17 +1015,24 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
         )
     K = _unified_domain(sp.QQ, list(Hb.values()))
     M = _to_domain_matrix(Hb, (n, n), K)
-    cp = M.charpoly()
-    if clock:
-        clock.check("characteristic polynomial", where)
-    cp_expr = sp.expand(sum((K.to_sympy(c) * _x ** (n - i) for i, c in enumerate(cp)), sp.Integer(0)))
-    content, flist = sp.factor_list(cp_expr, _x, *params) if params else sp.factor_list(cp_expr, _x)
-    # factor_list may leave a monomial factor x**k inside the returned content.
-    flist = list(flist)
-    for atom in sp.Mul.make_args(content):
-        base, e = atom.as_base_exp()
-        if base.has(_x):
-            flist.append((base, int(e)))
+    if fl is not None:
+        flist = [(sp.Add(*[c * _x ** (len(cs) - 1 - i) for i, c in enumerate(cs)]), mult)
+                 for cs, mult in fl]
+    else:
+        cp = M.charpoly()
+        if clock:
+            clock.check("characteristic polynomial", where)
+        cp_expr = sp.expand(sum((K.to_sympy(c) * _x ** (n - i) for i, c in enumerate(cp)), sp.Integer(0)))
+        content, flist = sp.factor_list(cp_expr, _x, *params) if params else sp.factor_list(cp_expr, _x)
+        # factor_list may leave a monomial factor x**k inside the returned content.
+        flist = list(flist)
+        for atom in sp.Mul.make_args(content):
+            base, e = atom.as_base_exp()
+            if base.has(_x):
+                flist.append((base, int(e)))
+        pl = [(tuple(sp.Poly(f, _x).all_coeffs()), int(m)) for f, m in flist if f.has(_x)]
+        if semi or _needs_semi(pl, n):
+            return _solve_semi(block, pl)
     factors: list[Factor] = []
     kroots: list[tuple[Surd, ...] | None] = []
     mcoeffs = [K.one]
@@ -782,17 +1042,6 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
         P = sp.Poly(f, _x)
         deg = P.degree()
         cs = P.all_coeffs()
-        minimal = sum(sp.Poly(g, _x).degree() for g, _ in flist if g.has(_x))
-        if deg >= 3 and not all(c.is_Rational for c in cs) and (
-                deg > MAX_IMPLICIT_DEGREE or n > MAX_IMPLICIT_BLOCK or minimal > MAX_IMPLICIT_MINIMAL):
-            raise ClosedFormError(
-                f"{where}: the characteristic polynomial has an irreducible factor of degree {deg} "
-                f"in the parameters ({sp.sstr(f.subs(_x, sp.Symbol('E')))}); its roots have no closed "
-                f"form, and implicit roots are kept symbolically only for factors of degree <= "
-                f"{MAX_IMPLICIT_DEGREE} in blocks of size <= {MAX_IMPLICIT_BLOCK} with at most "
-                f"{MAX_IMPLICIT_MINIMAL} distinct levels. Give numeric values to all but one "
-                f"parameter of this block, or use the numeric reference"
-            )
         kc = [K.from_sympy(c) for c in cs]
         mcoeffs = _poly_mul(K, mcoeffs, kc)
         if deg == 1:
@@ -887,9 +1136,6 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
     ------
     BudgetExceeded
         A block is too large or the time budget ran out (the message names the block).
-    ClosedFormError
-        A block mixing several parameters has an irreducible factor of degree >= 3.
-
     Examples
     --------
     >>> import sympy as sp, symresp as sr
@@ -916,6 +1162,7 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
     if clock and sym is not None:
         clock.check("symmetry sectors")
     sols: list[BlockSolution] = []
+    matrices: list[dict] = []
     params = system.parameters
     for b in structure.blocks:
         Hb = local[b.index]
@@ -932,8 +1179,9 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
             pieces = [(Block(len(sols), b.positions, b.labels, parent=b.index), Hb)]
         else:
             n = b.size
+            carried = _into_sectors(Hb, sectors, n)
             pieces = [(Block(len(sols) + k, b.positions, b.labels + sec.labels, parent=b.index,
-                             sector=sec), transform(Hb, sec.dual, sec.V, (n, n)))
+                             sector=sec), carried[k])
                       for k, sec in enumerate(sectors)]
         for blk, Hs in pieces:
             if blk.size > max_block:
@@ -947,11 +1195,20 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
                 sol = _solve_scaled(blk, *sf, clock)
             else:
                 sol = _solve_symbolic(blk, Hs, max_symbolic_block, clock, params)
-            if gauge is not None:
-                sol = replace(sol, gauge=tuple(gauge))
+            sol = replace(sol, gauge=tuple(gauge) if gauge is not None else None,
+                          entries=tuple((i, j, v) for (i, j), v in sorted(Hs.items()) if v != 0))
             sols.append(sol)
+            matrices.append(Hs)
             if clock:
                 clock.check("solving blocks", f"block {blk.index}")
+    if any(s.kind == "semi" for s in sols):
+        # One representation for every parametric implicit level of a system: a block with
+        # exact (rational-in-the-roots) weights next to a semi-closed one is made semi-closed.
+        for k, s in enumerate(sols):
+            if s.kind == "symbolic" and any(isinstance(r, LevelRoot) for f in s.factors for r in f.roots):
+                sols[k] = replace(_solve_symbolic(s.block, matrices[k], max_symbolic_block, clock,
+                                                  params, semi=True),
+                                  gauge=s.gauge, entries=s.entries)
     parts = []
     for s in sols:
         for fi, f in enumerate(s.factors):

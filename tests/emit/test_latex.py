@@ -68,9 +68,10 @@ def test_named_combinations_are_substituted_and_defined():
 def test_implicit_roots_are_named_and_defined():
     doc = latex_document(response("tilted_pair").derivation)
     assert "CRootOf" not in doc and "x__block" not in doc
-    defs = [r for r in _rows(doc) if re.match(r"r_\{\d\} &: ", r)]
-    assert len(defs) == 3
-    assert all("36 x^{3} - 72 x^{2} + 17 x + 13 = 0" in d for d in defs)
+    defs = [r for r in _rows(doc) if re.match(r"r_\{\d,k\} &: ", r)]
+    assert len(defs) == 1   # one row names the whole root set
+    assert r"\text{the roots of } 36 x^{3} - 72 x^{2} + 17 x + 13 = 0" in defs[0]
+    assert all(f"r_{{1,{k}}} \\approx" in defs[0] for k in range(3))
 
 
 @pytest.mark.parametrize("convention,sign", [
@@ -111,7 +112,7 @@ def test_latex_rejects_non_derivations():
 def test_parametric_implicit_roots_are_named_and_defined_by_their_polynomial():
     doc = latex_document(response("tilted_field").derivation)
     assert "LevelRoot" not in doc and "varepsilon" not in doc
-    defs = [r for r in _rows(doc) if re.match(r"r_\{\d\} &: ", r)]
-    assert len(defs) == 3
+    defs = [r for r in _rows(doc) if re.match(r"r_\{\d,k\} &: ", r)]
+    assert len(defs) == 1   # one row names the whole root set
     # The cubic of the block D S_z^2 + h S_z + hx S_x in the level variable x.
     assert all("x^{3}" in d and "hx" in d and r"\approx" not in d for d in defs)
