@@ -62,10 +62,13 @@ __all__ = ["Spectrum", "Part", "Factor", "BlockSolution", "solve", "clean", "is_
 MAX_IMPLICIT_DEGREE = 3
 MAX_IMPLICIT_MINIMAL = 3
 MAX_IMPLICIT_BLOCK = 3
-#: ... and at most this many parameters in the factor: a cubic block of a spin 5/2 with D, E
-#: and h has exact weights of thousands of terms (measured: 12 s to derive, 36 s to write
-#: its evaluator; 0.9 s and 2.2 s semi-closed).
+#: ... and at most this many parameters in a factor unless its coefficients are short (at
+#: most MAX_IMPLICIT_TERMS terms in all): a cubic block of a spin 5/2 with D, E and h (13
+#: terms) has exact weights of thousands of terms (measured: 12 s to derive, 36 s to write
+#: its evaluator; 0.9 s and 2.2 s semi-closed), a spin 1 in a tilted field (6 terms) has
+#: short ones.
 MAX_IMPLICIT_PARAMETERS = 2
+MAX_IMPLICIT_TERMS = 8
 
 _x = sp.Symbol("x__block")  # block variable; a plain Symbol survives polys round trips
 
@@ -994,7 +997,8 @@ def _needs_semi(flist: list[tuple[tuple[sp.Expr, ...], int]], n: int) -> bool:
     minimal = sum(len(cs) - 1 for cs, _ in flist)
     return any(len(cs) >= 4 and not all(c.is_Rational for c in cs) and (
         len(cs) - 1 > MAX_IMPLICIT_DEGREE or n > MAX_IMPLICIT_BLOCK or minimal > MAX_IMPLICIT_MINIMAL
-        or len(set().union(*[c.free_symbols for c in cs])) > MAX_IMPLICIT_PARAMETERS)
+        or (len(set().union(*[c.free_symbols for c in cs])) > MAX_IMPLICIT_PARAMETERS
+            and sum(len(sp.Add.make_args(sp.expand(c))) for c in cs) > MAX_IMPLICIT_TERMS))
         for cs, _ in flist)
 
 
