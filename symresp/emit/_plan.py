@@ -148,9 +148,8 @@ class Plan:
         return tuple(p.name for p in self.parameters)
 
     def is_complex(self, *exprs: sp.Expr) -> bool:
-        # safe: derivation values are already sympy objects
-        return any(sp.sympify(e).has(sp.I) or any(x.is_real is False for x in sp.sympify(e).free_symbols)
-                   for e in exprs)
+        values = [sp.sympify(e) for e in exprs]  # safe: derivation values are already sympy objects
+        return any(e.has(sp.I) or any(x.is_real is False for x in e.free_symbols) for e in values)
 
 
 def _sample(symbols, k: int) -> dict:

@@ -58,9 +58,9 @@ class ImplicitBlock(sp.Atom):
 
     def __new__(cls, n, entries, gram, parts):
         obj = sp.Atom.__new__(cls)
-        obj._data = (sp.Integer(n), tuple(sp.Tuple(*[sp.sympify(x) for x in e]) for e in entries),
-                     tuple(sp.sympify(g) for g in gram),
-                     tuple(sp.Tuple(sp.sympify(p[0]), sp.Integer(p[1])) for p in parts))
+        obj._data = (sp.Integer(n), tuple(sp.Tuple(*[_basic(x) for x in e]) for e in entries),
+                     tuple(_basic(g) for g in gram),
+                     tuple(sp.Tuple(_basic(p[0]), sp.Integer(p[1])) for p in parts))
         obj._free = None
         obj._key = None
         return obj
@@ -166,6 +166,15 @@ class ImplicitBlock(sp.Atom):
 
     def _sympystr(self, printer) -> str:
         return f"<block of {self.n} states>"
+
+
+def _basic(x) -> sp.Basic:
+    """A sympy object from symresp's own data (a sympy object or an int), never from text."""
+    if isinstance(x, sp.Basic):
+        return x
+    if isinstance(x, int) and not isinstance(x, bool):
+        return sp.Integer(x)
+    raise TypeError(f"ImplicitBlock: expected a sympy object or an int, got {type(x).__name__}")
 
 
 # Substituted blocks (immutable keys; the values are pure functions of them).
