@@ -57,6 +57,8 @@ LAZY = {
     # the runtime copied into emitted modules imports dask only when a dask array is passed,
     # so an evaluator stays numpy-only otherwise
     ("emit/_runtime.py", "dask"): "evaluators over dask arrays",
+    ("emit/_plots.py", "matplotlib"): "about a second to import; only when a picture is drawn",
+    ("cases/_fit.py", "scipy"): "scipy.optimize takes a second to import; only when fitting",
     ("emit/_runtime.py", "uuid"): "a fresh dask task name, only with dask arrays",
 }
 

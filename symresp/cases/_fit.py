@@ -34,7 +34,6 @@ from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.optimize
 import sympy as sp
 
 from ..algebra import Operator, to_array
@@ -681,6 +680,7 @@ def _check_varied(case: Case, vary: Sequence[str], start: Mapping[sp.Symbol, sp.
 def _least_squares(model: MagnetometryModel, data: DataTable, B: np.ndarray,
                    start: Mapping[sp.Symbol, sp.Expr]):
     """scipy's trust-region least squares of the weighted residuals, within the bounds."""
+    import scipy.optimize  # here, not at import: half a second or more for every other command
     varied = model.varied
     lo, hi = _bounds(model.case, varied, model.entries)
     x0 = np.clip(np.array([float(start[s]) for s in varied]), lo, hi)

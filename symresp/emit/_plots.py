@@ -25,17 +25,25 @@ import numpy as np
 from ..errors import InputError
 from ._pictures import LevelScheme, SpectralMap, Spectrum, StaticCurves, Sweep
 
-try:  # optional dependency: callers report its absence
-    import matplotlib
+import importlib.util
 
-    matplotlib.use("Agg")
-    from matplotlib.figure import Figure
-    from matplotlib.patches import FancyArrowPatch
-    HAVE_MATPLOTLIB = True
-except ImportError:  # pragma: no cover - depends on the installation
-    Figure = None  # type: ignore[assignment,misc]
-    FancyArrowPatch = None  # type: ignore[assignment,misc]
-    HAVE_MATPLOTLIB = False
+# matplotlib is optional and slow to import (about a second): it is looked up here and imported
+# by the first picture drawn, so that commands without pictures do not pay for it.
+HAVE_MATPLOTLIB = importlib.util.find_spec("matplotlib") is not None
+
+
+def _matplotlib():
+    """(Figure, FancyArrowPatch), importing matplotlib with the non-interactive backend."""
+    try:  # optional dependency
+        import matplotlib
+
+        matplotlib.use("Agg")
+        from matplotlib.figure import Figure
+        from matplotlib.patches import FancyArrowPatch
+    except ImportError:  # pragma: no cover - depends on the installation
+        raise InputError("pictures need matplotlib, which did not import; install it with "
+                         "pip install symresp[plot]") from None
+    return Figure, FancyArrowPatch
 
 __all__ = ["HAVE_MATPLOTLIB", "PALETTE", "DASHES", "COLOUR_MAP", "new_figure", "save_figure",
            "figure_bytes",
@@ -70,6 +78,7 @@ def new_figure(rows: int = 1, cols: int = 1, *, size: tuple[float, float] = (6.4
     """A Figure and its axes (a 2-d array) in the house style: light grid, no top or right
     spines; ``grid`` goes to ``Figure.subplots`` (``sharex``, ``height_ratios``, ...)."""
     _need()
+    Figure, _ = _matplotlib()
     fig = Figure(figsize=size, layout="constrained")
     axes = fig.subplots(rows, cols, squeeze=False, **grid)
     for ax in axes.flat:
@@ -140,7 +149,7 @@ def draw_levels(scheme: LevelScheme, *, title: str = "", unit: str = ""):
         x0 = xs[lo] + offsets[lo] + 0.18 * ((k % 3) - 1) * (xs[lo] == xs[hi])
         x1 = xs[hi] + offsets[hi] + 0.18 * ((k % 3) - 1) * (xs[lo] == xs[hi])
         lw = 0.6 + 4.4 * w / wmax
-        arrow = FancyArrowPatch((x0, E[lo]), (x1, E[hi]), arrowstyle="-|>",
+        arrow = _matplotlib()[1]((x0, E[lo]), (x1, E[hi]), arrowstyle="-|>",
                                 mutation_scale=6 + 3 * lw, lw=lw, color=_ARROW_COLOUR,
                                 alpha=0.85, shrinkA=0, shrinkB=0, zorder=3)
         arrow.set_gid(f"transition {lo + 1}->{hi + 1}")

@@ -228,6 +228,16 @@ class Derivation:
             x = memo[a] = sp.Integer(1) if dE == 0 else sp.exp(-beta * dE, evaluate=False)
         return x
 
+    def _difference(self, a: int, b: int) -> sp.Expr:
+        """:math:`x_a - x_b` without automatic evaluation (large derivations: the exponentials
+        are distinct, and evaluating asks sympy assumptions of each one), remembered."""
+        memo = self._memo.setdefault("differences", {})
+        d = memo.get((a, b))
+        if d is None:
+            d = memo[(a, b)] = sp.Add(self.boltzmann(a), sp.Mul(-1, self.boltzmann(b), evaluate=False),
+                                      evaluate=False)
+        return d
+
     def reduced_partition(self) -> sp.Expr:
         r""":math:`Z' = Z\, e^{\beta E_{\rm ref}} = \sum_a d_a x_a`."""
         memo = self._memo.get("reduced_partition")
@@ -269,13 +279,22 @@ class Derivation:
         out = []
         # 1/Z' built once: dividing by a long sum again for every transition re-derives the
         # assumptions of its reciprocal each time (seconds for a cavity at cutoff 60).
-        inv = 1 / self.reduced_partition()
+        large = self.is_large()
+        inv = (sp.Pow(self.reduced_partition(), -1, evaluate=False) if large
+               else 1 / self.reduced_partition())
         for (a, b), W in sorted(self.level_weights.items()):
             if a == b:
                 continue
             Om = self.levels[b].energy - self.levels[a].energy
-            Om = sp.expand(Om) if not (self.levels[a].implicit or self.levels[b].implicit) else Om
-            w = (self.boltzmann(a) - self.boltzmann(b)) * W * inv
+            if not (large or self.levels[a].implicit or self.levels[b].implicit):
+                Om = sp.expand(Om)
+            if large:
+                # Many levels: Z' is a long sum, and multiplying by its reciprocal asks sympy
+                # whether every factor is zero (seconds per hundred transitions); the product
+                # is kept unevaluated (large derivations sum over the common Z' anyway).
+                w = sp.Mul(self._difference(a, b), W, inv, evaluate=False)
+            else:
+                w = (self.boltzmann(a) - self.boltzmann(b)) * W * inv
             out.append(Transition(a, b, Om, W, w))
         res = tuple(out)
         self._memo["transitions"] = res
@@ -310,8 +329,13 @@ class Derivation:
         """(transition, (x_a - x_b) W_ab): the weights times Z'."""
         memo = self._memo.get("numerators")
         if memo is None:
-            memo = [(tr, (self.boltzmann(tr.lower) - self.boltzmann(tr.upper)) * tr.matrix_weight)
-                    for tr in self.transitions()]
+            if self.is_large():      # unevaluated products: no assumption queries per term
+                memo = [(tr, sp.Mul(self._difference(tr.lower, tr.upper), tr.matrix_weight,
+                                    evaluate=False))
+                        for tr in self.transitions()]
+            else:
+                memo = [(tr, (self.boltzmann(tr.lower) - self.boltzmann(tr.upper)) * tr.matrix_weight)
+                        for tr in self.transitions()]
             self._memo["numerators"] = memo
         return memo
 
@@ -346,7 +370,10 @@ class Derivation:
 
     def _isolated_raw(self) -> sp.Expr:
         if self.is_large():
-            return sp.Add(*[n / tr.frequency for tr, n in self._numerators()]) / self.reduced_partition()
+            terms = [sp.Mul(n, sp.Pow(tr.frequency, -1, evaluate=False), evaluate=False)
+                     for tr, n in self._numerators()]
+            return sp.Mul(sp.Add(*terms), sp.Pow(self.reduced_partition(), -1, evaluate=False),
+                          evaluate=False)
         terms = []
         for tr in self.transitions():
             terms.append(tr.weight / tr.frequency)
