@@ -8,10 +8,14 @@ weights, which contain them many times.
 
 from __future__ import annotations
 
+from fractions import Fraction
+
 import numpy as np
 import sympy as sp
 
 from symresp.spectrum import LevelRoot
+
+from .strategies import spin_matrices
 
 #: Levels closer than this (relative to max(1, max|E|)) count as one in the isolated sum.
 DEGENERATE_RTOL = 1e-9
@@ -47,3 +51,19 @@ def derived_sums(d, p: dict, T: float, z: complex):
     mB = sum(pop[a] * num(v) for a, v in d.expect_B.items())
     energies = sorted(e for e, k in zip(E, g) for _ in range(k))
     return iso + (elastic - mA * mB) / T, iso, dyn, energies
+
+
+def kron_ring(N: int, Jv: float, hv: float):
+    """The spin-1/2 Heisenberg ring H = Jv sum_i S_i.S_{i+1} + hv sum_i S^z_i built from numpy
+    Kronecker products, independently of symresp; returns (H, {"x"|"y"|"z": [S^c_k per site]})."""
+    S = spin_matrices(Fraction(1, 2))
+
+    def site(op, k):
+        out = np.ones((1, 1), dtype=complex)
+        for i in range(N):
+            out = np.kron(out, op if i == k else np.eye(2))
+        return out
+
+    ops = {c: [site(S[c], k) for k in range(N)] for c in ("x", "y", "z")}
+    H = sum(Jv * ops[c][k] @ ops[c][(k + 1) % N] for c in ("x", "y", "z") for k in range(N))
+    return H + hv * sum(ops["z"]), ops

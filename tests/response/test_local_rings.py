@@ -14,11 +14,9 @@ S_{j+1}), and the evaluator of a large derivation converts each irrational const
 from __future__ import annotations
 
 from collections import Counter
-from fractions import Fraction
 from functools import lru_cache
 
 import numpy as np
-import pytest
 import sympy as sp
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -27,9 +25,8 @@ import symresp as sr
 from symresp import numeric
 from symresp.emit import _printers, compile_module, numpy_module_source
 
-from .._pieces import derived_sums
+from .._pieces import derived_sums, kron_ring
 from ..conftest import ATOL_LOOSE, RTOL_LOOSE, assert_close
-from ..strategies import spin_matrices
 
 J = sp.Symbol("J", positive=True)
 h = sp.Symbol("h", real=True)
@@ -40,20 +37,6 @@ def _ring(N: int):
     zero = sr.Operator.scalar(0)
     H = sum((J * (s[i].vec @ s[(i + 1) % N].vec) for i in range(N)), zero)
     return sr.Model(H + h * sum((x.z for x in s), zero)), s
-
-
-def _kron_ring(N: int, Jv: float, hv: float):
-    S = spin_matrices(Fraction(1, 2))
-
-    def site(op, k):
-        out = np.ones((1, 1), dtype=complex)
-        for i in range(N):
-            out = np.kron(out, op if i == k else np.eye(2))
-        return out
-
-    ops = {c: [site(S[c], k) for k in range(N)] for c in ("x", "y", "z")}
-    H = sum(Jv * ops[c][k] @ ops[c][(k + 1) % N] for c in ("x", "y", "z") for k in range(N))
-    return H + hv * sum(ops["z"]), ops
 
 
 @lru_cache(maxsize=None)
@@ -78,7 +61,7 @@ def _local(N: int, site: int = 0, component: str = "x"):
 
 
 def _reference(N: int, site: int, component: str, Jv: float, hv: float, T: float):
-    Hn, ops = _kron_ring(N, Jv, hv)
+    Hn, ops = kron_ring(N, Jv, hv)
     A = ops[component][site]
     return numeric.solve(Hn, A, A, 1.0 / T)
 
@@ -118,7 +101,7 @@ def test_local_pieces_match_exact_diagonalisation():
     assert_close(iso_t, ref.isothermal, what="isothermal")
     assert_close(iso, ref.isolated, what="isolated")
     assert_close(dyn, ref.frequency(np.array([z.real]), z.imag)[0], what="chi(z)")
-    Hn, _ = _kron_ring(4, Jv, hv)
+    Hn, _ = kron_ring(4, Jv, hv)
     assert_close(energies, np.linalg.eigvalsh(Hn), rtol=RTOL_LOOSE, atol=ATOL_LOOSE,
                  what="levels")
 

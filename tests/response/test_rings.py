@@ -6,34 +6,22 @@ cubic and higher factors) are marked slow.
 
 from __future__ import annotations
 
-from fractions import Fraction
 
-import numpy as np
 import pytest
 import sympy as sp
 
 import symresp as sr
 from symresp import numeric
 
+from .._pieces import kron_ring
 from ..conftest import ATOL_EXACT, RTOL_EXACT, assert_close
-from ..strategies import spin_matrices
 
 J = sp.Symbol("J", positive=True)
 h = sp.Symbol("h", real=True)
 
 
 def _kron_ring(N: int, Jv: float, hv: float):
-    S = spin_matrices(Fraction(1, 2))
-
-    def site(op, k):
-        out = np.ones((1, 1), dtype=complex)
-        for i in range(N):
-            out = np.kron(out, op if i == k else np.eye(2))
-        return out
-
-    ops = {c: [site(S[c], k) for k in range(N)] for c in ("x", "y", "z")}
-    H = sum(Jv * ops[c][k] @ ops[c][(k + 1) % N] for c in ("x", "y", "z") for k in range(N))
-    H = H + hv * sum(ops["z"])
+    H, ops = kron_ring(N, Jv, hv)
     return H, sum(ops["z"]), sum(ops["x"])
 
 
