@@ -29,19 +29,19 @@ cutoff changes.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, replace
 from typing import Literal
 
 import sympy as sp
 
-from ..algebra import Basis, Operator, exact_decimal
+from ..algebra import Basis, Operator
 from ..conventions import DEFAULT_CONVENTION, Convention, beta
 from ..errors import ClosedFormError, InputError
 from ..models import Budget, System
 from ..spectrum import edge_positions, edge_weights
 from ._derive import Derivation, derive
 from ._motion import MotionDerivation, derive_motion
+from ._numbers import evaluate_precise
 
 __all__ = ["respond", "Truncation", "Route", "ROUTES"]
 
@@ -86,18 +86,10 @@ class Truncation:
 
     def estimate_at(self, params: dict, T: float) -> float:
         """The estimate at numbers (``params`` maps symbols or names to values)."""
-        d = self.derivation
-        by_name = {p.name: p for p in d.system.parameters}
-        values = {}
-        for k, v in params.items():
-            values[by_name.get(k, k) if isinstance(k, str) else k] = exact_decimal(float(v))
-        values[beta] = 1 / exact_decimal(float(T))
-        E = [complex(lv.energy.xreplace(values).evalf(30)).real for lv in d.levels]
-        lo = min(E)
-        x = [math.exp(-(e - lo) / T) for e in E]
-        Z = sum(lv.degeneracy * xi for lv, xi in zip(d.levels, x))
-        return sum(d.levels[a].degeneracy * x[a] * float(sp.re(sp.N(w.xreplace(values), 20)))
-                   for a, w in self.level_weights.items()) / Z
+        by_name = {p.name: p for p in self.derivation.system.parameters}
+        values = {by_name.get(k, k) if isinstance(k, str) else k: float(v) for k, v in params.items()}
+        values[beta] = 1.0 / float(T)
+        return evaluate_precise(self.estimate(), values).real
 
     def describe(self) -> str:
         """One line for summaries."""
