@@ -33,6 +33,7 @@ if str(ROOT) not in sys.path:
 CASES = {
     "baseline_ring4": (None, "baseline: spin-1/2 Heisenberg ring, 4 sites, total S^z"),
     "oscillator_200": (2.0, "one boson mode, cutoff 200, x = a + a^+"),
+    "oscillator_200_lehmann": (2.0, "the same oscillator on the truncated Lehmann route (levels)"),
     "jaynes_cummings_200": (10.0, "qubit + boson (Jaynes-Cummings), cutoff 200, sigma^x"),
     "ion_s10_z": (5.0, "single ion S = 10, D, E, field along z, S^z"),
     "ion_s10_x": (5.0, "single ion S = 10, D, E, field along x, S^z"),
@@ -131,7 +132,7 @@ def build(name: str):
         return _hubbard_ring(3)
     if name == "hubbard_ring4":
         return _hubbard_ring(4)
-    if name == "oscillator_200":
+    if name in ("oscillator_200", "oscillator_200_lehmann"):
         return _oscillator()
     if name == "jaynes_cummings_200":
         return _jaynes_cummings()
@@ -151,7 +152,8 @@ def worker(name: str) -> None:
     sr.Model(sp.Symbol("b", real=True) * warm.z).response(warm.x).numpy()
     H, A, point = build(name)
     t0 = time.perf_counter()
-    r = sr.Model(H).response(A)
+    route = "lehmann" if name.endswith("_lehmann") else "auto"
+    r = sr.Model(H).response(A, route=route)
     t1 = time.perf_counter()
     f = r.numpy()
     try:
@@ -161,7 +163,8 @@ def worker(name: str) -> None:
     t2 = time.perf_counter()
     peak_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
     print(json.dumps({"case": name, "derive": t1 - t0, "evaluator": t2 - t1,
-                      "seconds": t2 - t0, "peak_mb": peak_mb, "levels": len(r.levels),
+                      "seconds": t2 - t0, "peak_mb": peak_mb, "route": r.route,
+                      "levels": len(r.levels) if r.route == "lehmann" else None,
                       "chi": [value.real, value.imag]}))
 
 
