@@ -20,17 +20,25 @@ from .emit import (draw_levels, draw_map, draw_spectrum, draw_static, draw_sweep
                    level_sweep, save_figure, spectral_map, spectrum, static_curves)
 from .errors import InputError
 from .models import Budget
-from .response import Derivation, MotionDerivation, Presentation, present_response
+from .response import (Derivation, MotionDerivation, Presentation, present_response,
+                       presentation_text)
 
 __all__ = ["summary_text", "latex_block", "results_section", "picture", "PICTURES"]
+
+#: The quantities a summary prints (as a results section prints them).
+SUMMARY_QUANTITIES = ("isothermal", "isolated", "frequency")
+#: Seconds a summary may spend choosing printed forms (within the derivation's budget); past
+#: them it prints the population sums with a note.
+SUMMARY_SECONDS = 20.0
 
 #: The kinds of picture ``Response.plot`` draws.
 PICTURES = ("levels", "sweep", "spectrum", "map", "static")
 
 
 def summary_text(d: Derivation | MotionDerivation) -> str:
-    """A readable derivation summary: the route taken, levels, transitions, Z, static and
-    dynamic chi (poles instead of levels on the equations-of-motion route)."""
+    """A readable derivation summary: the route taken, then the results section of
+    :func:`~symresp.response.present_response` (levels, transitions, static and dynamic chi,
+    where-list; poles instead of levels on the equations-of-motion route)."""
     lines = [f"Linear response chi_AB of model {d.system.name!r}",
              f"  A = {describe(d.A)}", f"  B = {describe(d.B)}",
              f"  convention: {d.convention.describe()}",
@@ -42,20 +50,9 @@ def summary_text(d: Derivation | MotionDerivation) -> str:
                   f"chi_isolated   = {sp.sstr(d.static('isolated'))}",
                   f"chi(omega)     = {sp.sstr(d.frequency(omega))}"]
         return "\n".join(lines)
-    lines += [f"  blocks: {d.spectrum.describe()}", "", "Levels (E, degeneracy, quantum numbers):"]
-    for lv in d.levels:
-        qn = "; ".join(", ".join(f"{n}={v}" for n, v in lab) for lab in lv.quantum_numbers)
-        lines.append(f"  E = {sp.sstr(lv.energy):<30} g = {lv.degeneracy:<3} {qn}")
-    lines += ["", "Transitions (Omega = E_b - E_a, W_ab = Tr(P_a A P_b B)):"]
-    for tr in d.transitions():
-        lines.append(f"  {tr.lower} -> {tr.upper}: Omega = {sp.sstr(tr.frequency)}, "
-                     f"W = {sp.sstr(tr.matrix_weight)}")
-    if not d.transitions():
-        lines.append("  none")
-    lines += ["", f"Z = {sp.sstr(d.partition())}",
-              f"chi_isothermal = {sp.sstr(d.static('isothermal'))}",
-              f"chi_isolated   = {sp.sstr(d.static('isolated'))}",
-              f"chi(omega)     = {sp.sstr(d.frequency(omega))}"]
+    budget = Budget(seconds=min(SUMMARY_SECONDS, d.budget.seconds))
+    presented = present_response(d, SUMMARY_QUANTITIES, clock=budget.start())
+    lines += [f"  blocks: {d.spectrum.describe()}", ""] + presentation_text(presented)
     return "\n".join(lines)
 
 

@@ -180,7 +180,12 @@ class Clock:
     @staticmethod
     def is_fallback(err: BaseException, portion: Clock) -> bool:
         """True when ``err`` ends ``portion`` (and not the whole budget): fall back then."""
-        return isinstance(err, _PortionExceeded) and err.clock is portion and not (
+        if not isinstance(err, _PortionExceeded):
+            return False
+        owner = err.clock                   # a portion inside ``portion`` ends with it
+        while owner is not None and owner is not portion:
+            owner = owner.portion_of
+        return owner is portion and not (
             portion.portion_of is not None and portion.portion_of.expired())
 
     def __repr__(self) -> str:

@@ -98,6 +98,9 @@ def _hyperbolic_form(n: sp.Expr, d: sp.Expr) -> sp.Expr | None:
 
 #: Share of the time left that presenting one formula may use before the plain form is kept.
 PRESENT_SHARE = 0.25
+#: Distinct exponentials above which a formula is presented factor by factor (not brought over
+#: one common denominator).
+MAX_EXPONENTIALS = 8
 
 
 def present(expr: sp.Expr, *, max_ops: int = 400) -> sp.Expr:
@@ -145,6 +148,13 @@ def _present_now(expr: sp.Expr, max_ops: int) -> sp.Expr:
     if _larger_than(expr, 20 * max_ops):
         return expr
     if expr.has(sp.CRootOf, LevelRoot, BlockWeight) or sp.count_ops(expr) > max_ops:
+        return expr
+    if len(expr.atoms(sp.exp)) > MAX_EXPONENTIALS:
+        # A partition function of many levels: a common denominator would multiply every term
+        # by the largest Boltzmann factor (longer, and costly to factor); its pieces are
+        # presented one by one instead.
+        if expr.is_Mul:
+            return sp.Mul(*[_present_now(f, max_ops) for f in expr.args])
         return expr
     if any(p.exp.is_Rational and not p.exp.is_Integer and not p.base.free_symbols
            for p in expr.atoms(sp.Pow)):

@@ -74,8 +74,11 @@ PRESENT_SHARE = 0.5
 #: The note left when the presentation falls back.
 CHEAP_NOTE = ("presentation budget reached: the formulas are plain Lehmann sums over the "
               "populations p_i (raise --budget for the shortest forms)")
-#: Closed forms of whole formulas are tried up to this many levels.
+#: Closed forms of whole formulas are tried up to this many levels...
 CLOSED_MAX_LEVELS = 16
+#: ...and while Z has at most this many Boltzmann factors: a closed form carries Z written out,
+#: so past this it is never the shorter form and only costs time to build.
+CLOSED_MAX_FACTORS = 6
 #: A thermal mean whose text is longer than this gets a name in the where-list.
 MEAN_NAME_LENGTH = 30
 
@@ -748,6 +751,7 @@ def _present(d: Derivation, qs: tuple[str, ...], point: dict | None, clock: Cloc
     if cheap:
         b.notes.append(CHEAP_NOTE)
     b.thermal()
+    b.closed_allowed = b.closed_allowed and len(b.z_plain.atoms(sp.exp)) <= CLOSED_MAX_FACTORS
     transitions = b.transitions()
     poles = _Poles(b, qs)
     conv = d.convention

@@ -246,8 +246,18 @@ class _Interrupter:
             signal.raise_signal(signal.SIGINT)
 
 
+@pytest.fixture
+def ctrl_c_raises():
+    """Python's own SIGINT handler for the test: a process started in the background by a
+    shell that has no job control inherits SIGINT ignored, and Ctrl-C would never arrive."""
+    previous = signal.signal(signal.SIGINT, signal.default_int_handler)
+    yield
+    signal.signal(signal.SIGINT, previous)
+
+
 @pytest.mark.parametrize("where", ["serial", "cluster"])
-def test_ctrl_c_cancels_and_leaves_only_complete_files(where, scheduler, case_files, tmp_path):
+def test_ctrl_c_cancels_and_leaves_only_complete_files(where, scheduler, case_files, tmp_path,
+                                                       ctrl_c_raises):
     hook = _Interrupter()
     options = {"workers": 0} if where == "serial" else {"scheduler": scheduler}
     with pytest.raises(KeyboardInterrupt):

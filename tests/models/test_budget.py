@@ -91,6 +91,22 @@ def test_the_end_of_a_portion_is_told_apart_from_the_end_of_the_budget():
         assert not clock.expired()
 
 
+def test_a_portion_inside_a_portion_that_ends_belongs_to_the_outer_one():
+    # A formula presented inside the presentation of a whole response: when the outer
+    # portion ends first, the inner step's error is the outer portion's fallback (not a crash).
+    with Budget(seconds=30).start().running() as clock:
+        outer = clock.portion(0.0, "presenting the formulas")
+        time.sleep(0.01)
+        with pytest.raises(BudgetExceeded) as info:
+            with outer.running():
+                inner = outer.portion(0.5, "presenting a formula")
+                with inner.running():
+                    checkpoint("factoring")
+        assert not Clock.is_fallback(info.value, inner)      # its parent ended too
+        assert Clock.is_fallback(info.value, outer)
+        assert not Clock.is_fallback(info.value, clock.portion(0.5, "another step"))
+
+
 def test_present_keeps_the_plain_form_when_its_share_is_used_up(monkeypatch):
     from symresp.response import _derive
 

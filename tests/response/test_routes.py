@@ -201,13 +201,18 @@ def test_truncated_and_cutoff_free_routes_agree_to_the_truncation_error():
 
 
 def test_route_choice_errors_are_clear():
-    model, q, _ = _jaynes_cummings(6)
+    model, q, _ = _jaynes_cummings(3)
     with pytest.raises(InputError, match="route="):
         model.response(q.x, route="fastest")
     with pytest.raises(ClosedFormError, match="does not apply.*route='lehmann'"):
         model.response(q.x, route="motion")
     auto = model.response(q.x)
-    assert "equations of motion not closed" in auto.summary()
+    summary = auto.summary()
+    assert "equations of motion not closed" in summary
+    # The summary is the results section: radicals named once, lines a page can hold.
+    assert "    R1 = sqrt(4*g**2 + w0**2 - 2*w0*wq + wq**2)" in summary.splitlines()
+    formulas = [ln for ln in summary.splitlines()[6:] if not ln.startswith("  note:")]
+    assert "[cutoff]" in summary and max(map(len, formulas)) < 200
 
 
 def test_parameters_that_appear_only_in_the_observable_take_values():
