@@ -477,26 +477,27 @@ def _expdiv_a(xa, xb, beta, w):
 def _psi_s(y):
     if y < _SERIES:
         return _psi_series(y)
-    return (-math.expm1(-y) - y) / (y * y)
+    return (-math.expm1(-y) - y) / y / y
 
 
 def _psiphi_s(y):
     if y < _SERIES:
         return _psiphi_series(y)
-    return (-math.expm1(-y) - y * math.exp(-y)) / (y * y)
+    return (-math.expm1(-y) - y * math.exp(-y)) / y / y
 
 
-# psi and psi + phi over a grid y >= 0 (fresh arrays; y is overwritten).
+# psi and psi + phi over a grid y >= 0 (fresh arrays; y is left as it is).
 def _psi_grid(y):
     if y.size and y.min() < _SERIES:
         small = y < _SERIES
-        ys = numpy.where(small, 1.0, y)
-        return numpy.where(small, _psi_series(y), (-numpy.expm1(-ys) - ys) / (ys * ys))
+        ys = numpy.where(small, 1.0, y)          # each branch sees only its own points
+        return numpy.where(small, _psi_series(numpy.where(small, y, 0.0)),
+                           (-numpy.expm1(-ys) - ys) / ys / ys)
     out = numpy.negative(y, out=numpy.empty_like(y))
     numpy.expm1(out, out=out)
     numpy.negative(out, out=out)
     out -= y
-    y *= y
+    out /= y                                      # twice, not by y*y: no overflow for huge y
     out /= y
     return out
 
@@ -505,15 +506,15 @@ def _psiphi_grid(y):
     if y.size and y.min() < _SERIES:
         small = y < _SERIES
         ys = numpy.where(small, 1.0, y)
-        return numpy.where(small, _psiphi_series(y),
-                           (-numpy.expm1(-ys) - ys * numpy.exp(-ys)) / (ys * ys))
+        return numpy.where(small, _psiphi_series(numpy.where(small, y, 0.0)),
+                           (-numpy.expm1(-ys) - ys * numpy.exp(-ys)) / ys / ys)
     e = numpy.negative(y, out=numpy.empty_like(y))
     out = numpy.expm1(e)
     numpy.exp(e, out=e)
     e *= y
     out += e
     numpy.negative(out, out=out)
-    y *= y
+    out /= y
     out /= y
     return out
 
