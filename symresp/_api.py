@@ -659,14 +659,21 @@ class Response:
         return self._d.route
 
     def latex(self) -> str:
-        r"""LaTeX (aligned) block with Z, the static susceptibilities and :math:`\chi(\omega)`.
+        r"""LaTeX ``aligned`` block (math mode): the static susceptibilities and
+        :math:`\chi(\omega)` as :meth:`summary` prints them, with their where-list (Z,
+        radicals, populations, poles). ``symresp derive --latex`` writes a whole document.
 
         Examples
         --------
         >>> import sympy as sp, symresp as sr
         >>> s = sr.spin("s", sp.Rational(1, 2))
-        >>> print(sr.Model(0 * s.z).response(s.z).latex().splitlines()[1])
-        Z &= 2 \\
+        >>> print(sr.Model(0 * s.z).response(s.z).latex())
+        \begin{aligned}
+        \chi^{T}_{AB} &= \frac{\beta}{4} \\
+        \chi^{\mathrm{isol}}_{AB} &= 0 \\
+        \chi_{AB}(\omega) &= 0 \\
+        Z &= 2
+        \end{aligned}
         """
         with self._budgeted():
             return latex_block(self._d)

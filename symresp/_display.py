@@ -16,7 +16,7 @@ import sympy as sp
 from ._evaluation import numeric_params
 from .algebra import describe
 from .conventions import omega
-from .emit import (draw_levels, draw_map, draw_spectrum, draw_static, draw_sweep, level_scheme,
+from .emit import (presentation_aligned, draw_levels, draw_map, draw_spectrum, draw_static, draw_sweep, level_scheme,
                    level_sweep, save_figure, spectral_map, spectrum, static_curves)
 from .errors import InputError
 from .models import Budget
@@ -50,20 +50,32 @@ def summary_text(d: Derivation | MotionDerivation) -> str:
                   f"chi_isolated   = {sp.sstr(d.static('isolated'))}",
                   f"chi(omega)     = {sp.sstr(d.frequency(omega))}"]
         return "\n".join(lines)
-    budget = Budget(seconds=min(SUMMARY_SECONDS, d.budget.seconds))
-    presented = present_response(d, SUMMARY_QUANTITIES, clock=budget.start())
-    lines += [f"  blocks: {d.spectrum.describe()}", ""] + presentation_text(presented)
+    lines += [f"  blocks: {d.spectrum.describe()}", ""] + presentation_text(_presented(d))
     return "\n".join(lines)
 
 
 def latex_block(d: Derivation | MotionDerivation) -> str:
-    r"""LaTeX (aligned) block with Z, the static susceptibilities and :math:`\chi(\omega)`."""
-    rows = [] if isinstance(d, MotionDerivation) else [("Z", d.partition())]
-    rows += [(r"\chi^{T}_{AB}", d.static("isothermal")),
-            (r"\chi^{\mathrm{isol}}_{AB}", d.static("isolated")),
-            (r"\chi_{AB}(\omega)", d.frequency(omega))]
-    body = " \\\\\n".join(f"{k} &= {sp.latex(v)}" for k, v in rows)
-    return "\\begin{aligned}\n" + body + " \\\\\n\\end{aligned}"
+    r"""LaTeX ``aligned`` block: the presented static susceptibilities and :math:`\chi(\omega)`
+    with their where-list (Z, radicals, populations, poles), chosen within
+    :data:`SUMMARY_SECONDS` as for :func:`summary_text`; plain formulas on the
+    equations-of-motion route."""
+    if isinstance(d, MotionDerivation):
+        rows = [(r"\chi^{T}_{AB}", d.static("isothermal")),
+                (r"\chi^{\mathrm{isol}}_{AB}", d.static("isolated")),
+                (r"\chi_{AB}(\omega)", d.frequency(omega))]
+        body = " \\\\\n".join(f"{k} &= {sp.latex(v)}" for k, v in rows)
+        return "\\begin{aligned}\n" + body + "\n\\end{aligned}"
+    return presentation_aligned(_presented(d))
+
+
+def _presented(d: Derivation) -> Presentation:
+    """The presentation a summary prints, within :data:`SUMMARY_SECONDS` (made once per
+    derivation: the summary and the LaTeX block show the same forms)."""
+    memo = d._memo.get("summary")
+    if memo is None:
+        budget = Budget(seconds=min(SUMMARY_SECONDS, d.budget.seconds))
+        memo = d._memo["summary"] = present_response(d, SUMMARY_QUANTITIES, clock=budget.start())
+    return memo
 
 
 def results_section(d: Derivation, quantities: object, *, point: Mapping | None,

@@ -32,7 +32,8 @@ from ._pictures import (LevelScheme, SpectralMap, Spectrum, StaticCurves, Sweep,
 from ._plots import (COLOUR_MAP, DASHES, HAVE_MATPLOTLIB, PALETTE, STATIC_KINDS, draw_levels,
                      draw_map, draw_spectrum, draw_static, draw_sweep, figure_bytes, fit_figure,
                      new_figure, save_figure)
-from ._report import escape_text, formula_latex, latex_names, latex_report, presentation_latex
+from ._report import (escape_text, formula_latex, latex_names, latex_report, presentation_aligned,
+                      presentation_latex)
 from ._resonance import DEFAULT_FREQUENCY_GHZ, DEFAULT_MAX_FIELD, Resonance, resonance_fields
 from ._units import (AVOGADRO, BOHR_MAGNETON, BOLTZMANN, ELEMENTARY_CHARGE, ENERGY_UNITS, EXACT,
                      PLANCK, SPEED_OF_LIGHT, TEMPERATURE_UNITS, VACUUM_PERMEABILITY,
@@ -43,7 +44,7 @@ from ._units import (AVOGADRO, BOHR_MAGNETON, BOLTZMANN, ELEMENTARY_CHARGE, ENER
 
 __all__ = [
     "numpy_module_source", "compile_module", "numpy_functions", "symresp_version",
-    "latex_document", "latex_text", "latex_comment", "latex_report", "presentation_latex",
+    "latex_document", "latex_text", "latex_comment", "latex_report", "presentation_latex", "presentation_aligned",
     "formula_latex", "latex_names", "escape_text", "presentation_record", "JSON_FORMAT",
     "LevelScheme", "Sweep", "Spectrum", "SpectralMap", "StaticCurves", "level_scheme",
     "level_sweep", "spectrum", "spectral_map", "static_curves",

@@ -25,7 +25,7 @@ from ..spectrum import LevelRoot
 from ..response._render import merge_labels, term_key
 from ._latex import _poly_latex, latex_text
 
-__all__ = ["latex_report", "presentation_latex", "formula_latex", "latex_names", "escape_text",
+__all__ = ["latex_report", "presentation_latex", "presentation_aligned", "formula_latex", "latex_names", "escape_text",
            "LATEX_TITLES"]
 
 #: LaTeX names of the quantities.
@@ -261,6 +261,10 @@ def _transition_table(p: Presentation, names: Mapping) -> list[str]:
 
 
 def _where(defs, p: Presentation, names: Mapping, collapsed) -> list[str]:
+    return _align(_where_rows(defs, p, names, collapsed))
+
+
+def _where_rows(defs, p: Presentation, names: Mapping, collapsed) -> list[str]:
     pr = _Printer(p.rank, names)
     rows: list[str] = []
     done: set = set()
@@ -289,7 +293,7 @@ def _where(defs, p: Presentation, names: Mapping, collapsed) -> list[str]:
                 rows.append(rf"{names[d.symbol]} &\approx {value.partition(' = ')[2]}")
             continue
         rows += _rows(names[d.symbol], d.value, pr)
-    return _align(rows)
+    return rows
 
 
 def _formulas(p: Presentation, names: Mapping) -> list[str]:
@@ -337,6 +341,31 @@ def presentation_latex(p: Presentation, *, levels: bool = True, where=None,
         out += _where(defs, p, names, p.collapsed)
     out += [rf"\emph{{Note:}} {escape_text(n)}\par" for n in p.notes]
     return "\n".join(out)
+
+
+def presentation_aligned(p: Presentation) -> str:
+    r"""The formulas of a presentation and their where-list as one ``aligned`` block (math
+    mode: for a notebook, or inside an equation of the user's document).
+
+    Examples
+    --------
+    >>> import sympy as sp, symresp as sr
+    >>> q = sr.spin("q", sp.Rational(1, 2)); D = sp.Symbol("Delta", positive=True)
+    >>> print(presentation_aligned(sr.Model(D * q.z).response(2 * q.x).presented(["isolated"])))
+    \begin{aligned}
+    \chi^{\mathrm{isol}}_{AB} &= \frac{2 \tanh{\left(\frac{\Delta \beta}{2} \right)}}{\Delta} \\
+    Z &= 1 + e^{- \Delta \beta}
+    \end{aligned}
+    """
+    if not isinstance(p, Presentation):
+        raise InputError(f"presentation_aligned: p={p!r} must be a symresp Presentation "
+                         "(Response.presented())")
+    names = latex_names(p)
+    pr = _Printer(p.rank, names)
+    rows = [r for f in p.formulas for r in _rows(LATEX_TITLES[f.quantity], f.expr, pr)]
+    rows += _where_rows(p.definitions, p, names, p.collapsed)
+    return "\n".join([r"\begin{aligned}", *[r + r" \\" for r in rows[:-1]], *rows[-1:],
+                      r"\end{aligned}"])
 
 
 _PREAMBLE = [r"\documentclass[11pt]{article}", r"\usepackage{amsmath}",

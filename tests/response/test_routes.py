@@ -213,6 +213,9 @@ def test_route_choice_errors_are_clear():
     assert "    R1 = sqrt(4*g**2 + w0**2 - 2*w0*wq + wq**2)" in summary.splitlines()
     formulas = [ln for ln in summary.splitlines()[6:] if not ln.startswith("  note:")]
     assert "[cutoff]" in summary and max(map(len, formulas)) < 200
+    tex = auto.latex()                  # the same forms, as one aligned block
+    assert tex.startswith("\\begin{aligned}") and tex.endswith("\\end{aligned}")
+    assert "R_{1} &= \\sqrt{4 g^{2} + w_{0}^{2} - 2 w_{0} wq + wq^{2}} \\\\" in tex.splitlines()
 
 
 def test_parameters_that_appear_only_in_the_observable_take_values():
