@@ -18,7 +18,7 @@ import numpy as np
 import sympy as sp
 
 from ..conventions import beta
-from ..errors import InputError
+from ..errors import InputError, positive_float
 from ..response import Derivation, evaluate_arrays, evaluate_precise
 from ._read import Case
 from ._verify import energy_scale
@@ -72,8 +72,8 @@ def response_curves(case: Case, label: str, d: Derivation, *, temperature: float
         raise InputError(f"{case.source}: curves need a value for every parameter; add value = ... "
                          f"under [parameters] for {', '.join(missing)}")
     for name, v in (("temperature", temperature), ("eta", eta)):
-        if v is not None and not (isinstance(v, (int, float)) and np.isfinite(v) and v > 0):
-            raise InputError(f"curves: {name}={v!r} must be a positive number")
+        if v is not None:
+            positive_float(v, f"curves: {name}")
     scale = energy_scale(case)
     params = {s: float(v) for s, v in defaults.items() if s in set(d.system.parameters)}
     T0 = float(temperature) if temperature is not None else scale

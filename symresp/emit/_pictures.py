@@ -22,7 +22,7 @@ import numpy as np
 import sympy as sp
 
 from ..conventions import beta
-from ..errors import InputError
+from ..errors import InputError, positive_float
 from ..response import Derivation
 from ._numpy_module import numpy_functions
 
@@ -53,13 +53,7 @@ def parameter_values(d: Derivation, params: Mapping | None) -> dict[str, float]:
 
 
 def _positive(name: str, value: object) -> float:
-    try:
-        x = float(value)  # type: ignore[arg-type]
-    except (TypeError, ValueError):
-        raise InputError(f"{name}={value!r} must be a positive number") from None
-    if not (x > 0 and math.isfinite(x)):
-        raise InputError(f"{name}={value!r} must be a positive number")
-    return x
+    return positive_float(value, name)
 
 
 def _args(mod, values: Mapping[str, float]) -> list[float]:

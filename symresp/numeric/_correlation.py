@@ -20,7 +20,7 @@ import math
 
 import numpy as np
 
-from symresp.errors import InputError
+from symresp.errors import InputError, positive_float
 
 from ._levels import eigensystem
 
@@ -48,13 +48,7 @@ def _matrix(name: str, value: object, d: int | None = None) -> np.ndarray:
 def _check(beta: object, kind: object) -> float:
     if kind not in CORRELATION_KINDS:
         raise InputError(f"kind={kind!r} must be one of {', '.join(map(repr, CORRELATION_KINDS))}")
-    try:
-        b = float(beta)  # type: ignore[arg-type]
-    except (TypeError, ValueError):
-        raise InputError(f"beta={beta!r} must be a positive finite number") from None
-    if not (b > 0 and math.isfinite(b)):
-        raise InputError(f"beta={beta!r} must be a positive finite number")
-    return b
+    return positive_float(beta, "beta")
 
 
 def correlation_lines(H: object, A: object, B: object, beta: float, *, kind: str = "plain",
@@ -157,12 +151,7 @@ def correlation_spectrum(H: object, A: object, B: object, beta: float, omega: ob
     1.0
     """
     f, s = correlation_lines(H, A, B, beta, kind=kind)
-    try:
-        eta_v = float(eta)
-    except (TypeError, ValueError):
-        raise InputError(f"eta={eta!r} must be a positive number") from None
-    if not (eta_v > 0 and math.isfinite(eta_v)):
-        raise InputError(f"eta={eta!r} must be a positive number")
+    eta_v = positive_float(eta, "eta")
     w = np.asarray(omega, dtype=float)
     x = w[..., None] - f
     if shape == "lorentzian":
