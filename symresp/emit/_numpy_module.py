@@ -25,6 +25,7 @@ from ..algebra import describe
 from ..errors import InputError
 from ..response import Derivation, MotionDerivation
 from ..spectrum import LadderSpectrum
+from ._block_module import block_module_source, uses_block_evaluator
 from ._correlation import (CORRELATION_RUNTIME, correlation_glue, correlation_program,
                            correlation_wrapper)
 from ._eigen import eigen_plan
@@ -459,6 +460,10 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
         return motion_module_source(derivation, name=name, version=symresp_version())
     if isinstance(derivation.spectrum, LadderSpectrum):
         return ladder_module_source(derivation, name=name, version=symresp_version())
+    if uses_block_evaluator(derivation):
+        # Semi-closed blocks: every block diagonalised at the points, sums over state pairs.
+        return block_module_source(derivation, name=name, version=symresp_version(),
+                                   arguments=_signature_names)
     exact = build_plan(derivation)
     # Value functions diagonalise semi-closed blocks numerically (stable where their levels
     # nearly coincide); the Jacobian differentiates the exact weights through the roots.
