@@ -92,6 +92,11 @@ class _Printer(NumPyPrinter):
         return super()._print_Pow(expr, rational=rational)
 
 
+def _expr(value) -> sp.Expr:
+    """A derivation's value as a sympy object (block data holds ints or sympy objects)."""
+    return value if isinstance(value, sp.Basic) else sp.Integer(value)
+
+
 def _similarity(X) -> tuple[numpy.ndarray, numpy.ndarray] | None:
     """(R, R^-1) as float arrays with R^-1 M R Hermitian (R = G^-1/2), or None for G = 1."""
     n = X.n
@@ -182,7 +187,7 @@ def block_module_source(d: Derivation, *, version: str, name: str | None = None,
     exprs += [v for blk in Bs.values() for v in blk.values()]
     symbols = set(d.system.parameters)
     for e in exprs:
-        symbols |= sp.sympify(e).free_symbols  # safe: sympy objects from a derivation
+        symbols |= _expr(e).free_symbols
     rank = {p: k for k, p in enumerate(d.system.parameters)}
     original = tuple(sorted(symbols, key=lambda s: (rank.get(s, len(rank)), s.name)))
     safe = _safe_names(original)
@@ -191,10 +196,10 @@ def block_module_source(d: Derivation, *, version: str, name: str | None = None,
     printer = _Printer({"fully_qualified_modules": True})
 
     def code(expr) -> str:
-        e = freeze_constants(sp.sympify(expr).xreplace(rename), table)  # safe: sympy objects
+        e = freeze_constants(_expr(expr).xreplace(rename), table)
         return printer.doprint(e)
 
-    real_data = not any(sp.sympify(e).has(sp.I) for e in exprs)  # safe: sympy objects
+    real_data = not any(_expr(e).has(sp.I) for e in exprs)
     hermitian = _is_hermitian(formA) and (formB is formA or _is_hermitian(formB))
     static_real = hermitian
     wave_real = hermitian and (formB is formA or real_data)
@@ -225,7 +230,10 @@ def block_module_source(d: Derivation, *, version: str, name: str | None = None,
             for j in range(sizes[Y]):
                 ia.append(offsets[X] + i)
                 ib.append(offsets[Y] + j)
+    where = {pair: k for k, pair in enumerate(zip(ia, ib))}
+    partner = [where.get((j, i), -1) for i, j in zip(ia, ib)]
     L.append(f"_LINKS = {tuple(links)!r}")
+    L.append(f"_PARTNER = numpy.array({partner!r}, dtype=numpy.intp)")
     L.append(f"_IA = numpy.array({ia!r}, dtype=numpy.intp)")
     L.append(f"_IB = numpy.array({ib!r}, dtype=numpy.intp)")
     diag_a = sorted(X for X, Y in As if X == Y)
@@ -253,23 +261,28 @@ def block_module_source(d: Derivation, *, version: str, name: str | None = None,
     op_symbols = set()
     for blk in list(As.values()) + list(Bs.values()):
         for v in blk.values():
-            op_symbols |= sp.sympify(v).free_symbols  # safe: sympy objects
+            op_symbols |= _expr(v).free_symbols
     body += ["", "", "def _operators(_ps):",
              '    """(A~_XY, B~_YX) of every linked pair of blocks, and the diagonal blocks of A and',
-             '    B, in the Hermitian coordinates of the blocks."""', unpack,
-             "    links = ("]
-    for X, Y in links:
-        body.append(f"        (_similar({dense(sizes[X], sizes[Y], As[(X, Y)])}, _RI{X}, _R{Y}),")
-        body.append(f"         _similar({dense(sizes[Y], sizes[X], Bs[(Y, X)])}, _RI{Y}, _R{X})),")
-    body.append("    )")
-    body.append("    da = (")
-    for X in diag_a:
-        body.append(f"        _similar({dense(sizes[X], sizes[X], As[(X, X)])}, _RI{X}, _R{X}),")
-    body.append("    )")
-    body.append("    db = (")
-    for X in diag_b:
-        body.append(f"        _similar({dense(sizes[X], sizes[X], Bs[(X, X)])}, _RI{X}, _R{X}),")
-    body.append("    )")
+             '    B, in the Hermitian coordinates of the blocks (with A = B the same arrays)."""',
+             unpack]
+    made: set = set()
+
+    def block(tag: str, forms: dict, X: int, Y: int) -> str:
+        tag = "a" if forms is As or Bs is As else tag
+        var = f"_{tag}{X}_{Y}"
+        if var not in made:
+            made.add(var)
+            body.append(f"    {var} = _similar({dense(sizes[X], sizes[Y], forms[(X, Y)])}, "
+                        f"_RI{X}, _R{Y})")
+        return var
+
+    pairs = [(block("a", As, X, Y), block("b", Bs, Y, X)) for X, Y in links]
+    da_vars = [block("a", As, X, X) for X in diag_a]
+    db_vars = [block("b", Bs, X, X) for X in diag_b]
+    body.append("    links = (" + "".join(f"({u}, {v}), " for u, v in pairs) + ")")
+    body.append("    da = (" + "".join(f"{u}, " for u in da_vars) + ")")
+    body.append("    db = (" + "".join(f"{u}, " for u in db_vars) + ")")
     body.append("    return links, da, db")
     body.append("")
     body.append(f"_OPERATORS_VARY = {bool(op_symbols)!r}")
@@ -556,8 +569,10 @@ _BLOCK_RUNTIME = r'''
 # over pairs of eigenstates.
 # ------------------------------------------------------------------------------------------
 
-#: Pair elements per step of the kernels (bounds the temporaries of a grid).
-_PAIR_BUDGET = 1 << 16
+#: Elements per temporary of the kernels: 8192 complex numbers (128 KiB) stay below the
+#: allocator's trim threshold, so a temporary is not handed back to the system and
+#: page-faulted afresh at every step (see _CHUNK).
+_PAIR_BUDGET = 1 << 13
 #: Relative step of the central differences of the Jacobian (truncation ~1e-12, rounding
 #: ~1e-10 of the value's scale).
 _FD_STEP = 1e-6
@@ -610,23 +625,27 @@ def _spectrum(ps):
         vecs.append(U)
     E = numpy.concatenate(evs, axis=-1)
     links, da, db = ops
+    seen = {}
+
+    def product(M, X, Y):
+        """U_X^+ M U_Y, once per operator block (with A = B the same for both)."""
+        key = (id(M), X, Y)
+        if key not in seen:
+            seen[key] = numpy.conj(numpy.swapaxes(vecs[X], -1, -2)) @ M @ vecs[Y]
+        return seen[key]
+
     blocks = []
     for (X, Y), (La, Rb) in zip(_LINKS, links):
-        UX, UY = vecs[X], vecs[Y]
-        left = numpy.conj(numpy.swapaxes(UX, -1, -2)) @ La @ UY
-        right = numpy.conj(numpy.swapaxes(UY, -1, -2)) @ Rb @ UX
-        w = left * numpy.swapaxes(right, -1, -2)
+        w = product(La, X, Y) * numpy.swapaxes(product(Rb, Y, X), -1, -2)
         blocks.append(w.reshape(w.shape[:-2] + (-1,)))
     W = numpy.concatenate(blocks, axis=-1) if blocks else numpy.zeros(shape + (0,))
     W = numpy.broadcast_to(W, shape + W.shape[-1:])
     a = numpy.zeros(shape + (_STATES,), dtype=complex)
     b = numpy.zeros(shape + (_STATES,), dtype=complex)
     for X, M in zip(_DIAG_A, da):
-        U = vecs[X]
-        a[..., _OFFSETS[X]:_OFFSETS[X + 1]] = numpy.einsum("...ki,...kl,...li->...i", numpy.conj(U), M, U)
+        a[..., _OFFSETS[X]:_OFFSETS[X + 1]] = numpy.diagonal(product(M, X, X), axis1=-2, axis2=-1)
     for X, M in zip(_DIAG_B, db):
-        U = vecs[X]
-        b[..., _OFFSETS[X]:_OFFSETS[X + 1]] = numpy.einsum("...ki,...kl,...li->...i", numpy.conj(U), M, U)
+        b[..., _OFFSETS[X]:_OFFSETS[X + 1]] = numpy.diagonal(product(M, X, X), axis1=-2, axis2=-1)
     if _STATIC_REAL:
         a, b = a.real, b.real
     if _WAVE_REAL:
@@ -664,29 +683,67 @@ def _thermal(beta, E):
 
 
 def _static_kernel(kind, T, P):
-    """chi at temperatures T (m,) and spectrum P (one point, or m points)."""
+    """chi at temperatures T (m,) and spectra P (one point, or m points), pair by pair."""
     E, W, a, b = P
     beta = 1.0 / T
     x, Z = _thermal(beta, E)
-    Ei, Ej = E[..., _IA], E[..., _IB]
-    gap = Ej - Ei
-    xi, xj = x[:, _IA], x[:, _IB]
+    gap = E[..., _IB] - E[..., _IA]
     y = beta[:, None] * numpy.abs(gap)
-    g = numpy.maximum(xi, xj) * _phi(y)
+    g = numpy.maximum(x[:, _IA], x[:, _IB]) * _phi(y)
     if kind == "isolated":
         scale = numpy.abs(E).max(axis=-1, keepdims=True)
         g = numpy.where(numpy.abs(gap) > _DEGENERACY_RTOL * scale, g, 0.0)
     else:
         g = numpy.where(_IA == _IB, 0.0, g)      # the diagonal enters through the covariance
     value = (g * W).sum(axis=-1) * beta / Z
-    if kind == "isothermal":
-        low = numpy.argmin(E, axis=-1)[..., None]
-        da = a - numpy.take_along_axis(a, low, axis=-1)
-        db = b - numpy.take_along_axis(b, low, axis=-1)
-        p = x / Z[:, None]
-        ma, mb = (p * da).sum(axis=-1), (p * db).sum(axis=-1)
-        value = value + beta * ((p * da * db).sum(axis=-1) - ma * mb)
-    return _SIGN * value
+    return value + _covariance(kind, beta, x, Z, E, a, b)
+
+
+def _covariance(kind, beta, x, Z, E, a, b):
+    """beta (sum_i p_i a_i b_i - <A><B>) of the isothermal kind (0 for the isolated one),
+    with a and b taken relative to the lowest state (no cancellation at low T)."""
+    if kind != "isothermal":
+        return 0.0
+    low = numpy.argmin(E, axis=-1)[..., None]
+    da = a - numpy.take_along_axis(a, low, axis=-1)
+    db = b - numpy.take_along_axis(b, low, axis=-1)
+    p = x / Z[:, None]
+    ma, mb = (p * da).sum(axis=-1), (p * db).sum(axis=-1)
+    return beta * ((p * da * db).sum(axis=-1) - ma * mb)
+
+
+#: A pair of states counts as far apart on a grid of temperatures when beta |E_j - E_i| is
+#: at least this at every temperature: its term W (x_i - x_j)/(E_j - E_i) is then split into
+#: x_i W/(E_j - E_i) - x_j W/(E_j - E_i) with a relative rounding error of at most about
+#: 1e-16 / _FAR = 1e-13, and summed over pairs before the grid is touched.
+_FAR = 1e-3
+
+
+def _static_grid(kind, T, P):
+    """chi at temperatures T (m,) for one spectrum P: far pairs through the temperature-free
+    coefficients c_i = sum_j W_ij/(E_j - E_i) (a product with the Boltzmann factors), the
+    others pair by pair."""
+    E, W, a, b = P
+    beta = 1.0 / T
+    x, Z = _thermal(beta, E)
+    gap = E[_IB] - E[_IA]
+    far = numpy.abs(gap) * beta.min() >= _FAR
+    if kind == "isolated":
+        near = ~far & (numpy.abs(gap) > _DEGENERACY_RTOL * numpy.abs(E).max())
+    else:
+        near = ~far & (_IA != _IB)
+    value = 0.0
+    if far.any():
+        q = W[far] / gap[far]
+        c = numpy.zeros(len(E), dtype=q.dtype)
+        numpy.add.at(c, _IA[far], q)
+        numpy.add.at(c, _IB[far], -q)
+        value = numpy.einsum("ij,j->i", x, c) / Z
+    if near.any():
+        ia, ib = _IA[near], _IB[near]
+        g = numpy.maximum(x[:, ia], x[:, ib]) * _phi(beta[:, None] * numpy.abs(gap[near]))
+        value = value + numpy.einsum("ij,j->i", g, W[near]) * beta / Z
+    return value + _covariance(kind, beta, x, Z, E, a, b)
 
 
 def _points(T, ps, extra=()):
@@ -702,9 +759,9 @@ def _points(T, ps, extra=()):
     return shape, flat(T), fps, [flat(v) for v in extra], scalar
 
 
-def _steps(n, scalar):
-    """Slices of at most _PAIR_BUDGET pair elements (all points share one spectrum when scalar)."""
-    size = max(1, _PAIR_BUDGET // max(1, len(_IA)))
+def _steps(n, width):
+    """Slices of the points with at most _PAIR_BUDGET elements of width values each."""
+    size = max(1, _PAIR_BUDGET // max(1, width))
     for i in range(0, n, size):
         yield slice(i, min(n, i + size))
 
@@ -724,10 +781,13 @@ def _static(kind, T, params):
                             numpy.dtype(float if _STATIC_REAL else complex))
     shape, Ts, ps, _, scalar = _points(T, params)
     out = numpy.empty(Ts.size, dtype=float if (_STATIC_REAL and _WAVE_REAL) else complex)
-    P = _spectrum_at(ps, True) if scalar else None
-    for s in _steps(Ts.size, scalar):
-        Ps = P if scalar else _spectrum([p[s] for p in ps])
-        out[s] = _static_kernel(kind, Ts[s], Ps)
+    if scalar:
+        P = _spectrum_at(ps, True)
+        for s in _steps(Ts.size, len(P[0])):
+            out[s] = _static_grid(kind, Ts[s], P)
+        return _finish(out, shape, _STATIC_REAL)
+    for s in _steps(Ts.size, len(_IA)):
+        out[s] = _static_kernel(kind, Ts[s], _spectrum([p[s] for p in ps]))
     return _finish(out, shape, _STATIC_REAL)
 
 
@@ -754,15 +814,16 @@ def _line(x, eta, shape):
     return math.sqrt(math.pi / 2) * k * numpy.exp(-(x * k) ** 2 / 2)
 
 
-def _wave_kernel(what, X, T, P, eta, shape):
-    """One of chi(omega), chi''(omega), chi(t), S(omega) at grid points X with temperatures T."""
+def _lines(what, beta, P):
+    """Frequencies and coefficients of the pole or line sum: (K,) for one spectrum at one
+    temperature (pairs that cannot contribute left out), (m, K) for m points."""
     E, W, a, b = P
-    beta = 1.0 / T
-    x, Z = _thermal(beta, E)
+    beta = numpy.asarray(beta, dtype=float)
+    emin = E.min(axis=-1, keepdims=True)
+    x = numpy.exp(-beta[..., None] * (E - emin))
+    Z = x.sum(axis=-1)[..., None]
     freq = E[..., _IB] - E[..., _IA]
-    scale = numpy.abs(E).max(axis=-1, keepdims=True)
-    apart = numpy.abs(freq) > _DEGENERACY_RTOL * scale
-    xi, xj = x[:, _IA], x[:, _IB]
+    xi, xj = x[..., _IA], x[..., _IB]
     if what.startswith("correlation_"):
         kind = what[len("correlation_"):]
         if kind == "plain":
@@ -770,33 +831,102 @@ def _wave_kernel(what, X, T, P, eta, shape):
         elif kind == "symmetrised":
             c = (xi + xj) / 2
         else:               # (x_i - x_j)/(beta Omega) = x_lower phi(beta |Omega|), -> x_i at 0
-            c = numpy.where(freq >= 0, xi, xj) * _phi(beta[:, None] * numpy.abs(freq))
-        lines = _line(_FREQUENCY_SIGN * X[:, None] - freq, eta, shape)
-        return 2.0 * (c * W * lines).sum(axis=-1) / Z
-    weight = numpy.where(apart, (xi - xj) * W, 0.0) / Z[:, None]
+            c = numpy.where(freq >= 0, xi, xj) * _phi(beta[..., None] * numpy.abs(freq))
+        coef = 2.0 * c * W / Z
+    else:
+        scale = numpy.abs(E).max(axis=-1, keepdims=True)
+        apart = numpy.abs(freq) > _DEGENERACY_RTOL * scale
+        coef = numpy.where(apart, (xi - xj) * W, 0.0) / Z
+    if coef.ndim == 1:
+        keep = coef != 0
+        return freq[keep], coef[keep]
+    return freq, coef
+
+
+def _grid(what, X, freq, coef, eta, shape):
+    """The pole or line sum at the grid points X (m,) (see _lines)."""
     if what == "omega":
         z = _FSIGN * X + 1j * _PRESCRIPTION * eta
-        return _SIGN * (weight / (freq - z[:, None])).sum(axis=-1)
-    if what == "spectral":
-        return _SIGN * _FSIGN * (weight * _line(_FSIGN * X[:, None] - freq, eta, shape)).sum(axis=-1)
-    value = _SIGN * 1j * (weight * numpy.exp(-1j * freq * X[:, None])).sum(axis=-1)
-    return numpy.where(X >= 0, value, 0.0)
+        terms = 1.0 / (freq - z[:, None])
+        factor = _SIGN
+    elif what == "time":
+        terms = numpy.exp(-1j * freq * X[:, None])
+        factor = _SIGN * 1j
+    else:
+        terms = _line(_FSIGN * X[:, None] - freq, eta, shape)
+        factor = _SIGN * _FSIGN if what == "spectral" else 1.0
+    if coef.ndim == 1:
+        # einsum, not BLAS: a matrix-vector product of this size is 0.1 ms in einsum and up to
+        # 15 ms in a threaded BLAS on a loaded machine (measured on 2 cores).
+        value = factor * numpy.einsum("ij,j->i", terms, coef)
+    else:
+        value = factor * (terms * coef).sum(axis=-1)
+    if what == "time":
+        value = numpy.where(X >= 0, value, 0.0)
+    return value
+
+
+def _pole_pairs(beta, P, eta):
+    """chi(omega) of one spectrum at one temperature as pole pairs +-Omega_k, Omega_k > 0:
+    w+/(Omega - z) + w-/(-Omega - z) = ((w+ - w-) Omega + (w+ + w-) z)/(Omega^2 - z^2).
+    Returns (Omega^2, u, v) with u = (w+ - w-) Omega, v = w+ + w-."""
+    E, W, a, b = P
+    x = numpy.exp(-beta * (E - E.min()))
+    freq = E[_IB] - E[_IA]
+    apart = numpy.abs(freq) > _DEGENERACY_RTOL * numpy.abs(E).max()
+    w = numpy.where(apart, (x[_IA] - x[_IB]) * W, 0.0) / x.sum()
+    up = numpy.flatnonzero(freq > 0)
+    mate = _PARTNER[up]
+    down = numpy.where(mate >= 0, w[numpy.maximum(mate, 0)], 0.0)
+    lone = numpy.flatnonzero((freq < 0) & (_PARTNER < 0))    # a pole at -Omega alone
+    om = numpy.concatenate([freq[up], -freq[lone]])
+    wp = numpy.concatenate([w[up], numpy.zeros(len(lone), dtype=w.dtype)])
+    wm = numpy.concatenate([down, w[lone]])
+    u, v = (wp - wm) * om, wp + wm
+    # Pole pairs whose weights are below 1e-17 of the largest (Boltzmann factors of high
+    # levels, rounding of zero weights) change no digit, also at a pole: relative to the
+    # largest term there they are below 1e-17 (largest |Omega|)/eta, and the threshold
+    # scales with eta.
+    size = numpy.maximum(numpy.abs(wp), numpy.abs(wm))
+    limit = _POLE_CUT * size.max(initial=0.0) * min(1.0, eta / max(om.max(initial=0.0), 1e-300))
+    keep = size > limit
+    return om[keep] ** 2, u[keep], v[keep]
+
+
+#: Relative size below which a pole pair is left out of chi(omega) on a grid (see _pole_pairs).
+_POLE_CUT = 1e-17
+
+
+def _omega_pairs(X, eta, om2, u, v):
+    z = _FSIGN * X + 1j * _PRESCRIPTION * eta
+    d = 1.0 / (om2 - (z * z)[:, None])
+    return _SIGN * (numpy.einsum("ij,j->i", d, u) + z * numpy.einsum("ij,j->i", d, v))
 
 
 def _wave(what, X, T, params, eta, shape):
     name = "t" if what == "time" else "omega"
-    real = _WAVE_REAL and what in ("spectral", "time") or (_WAVE_REAL and what.startswith("corr"))
+    real = _WAVE_REAL and what != "omega"
     if _is_lazy((X, T, *params)):
         return _over_blocks(lambda X, T, *ps: _wave(what, X, T, ps, eta, shape), (X, T, *params),
                             numpy.dtype(float if real else complex))
     shape_, Ts, ps, (Xs,), scalar = _points(T, params, ((name, X),))
     out = numpy.empty(Ts.size, dtype=complex)
-    P = _spectrum_at(ps, True) if scalar else None
-    for s in _steps(Ts.size, scalar):
-        Ps = P if scalar else _spectrum([p[s] for p in ps])
-        out[s] = _wave_kernel(what, Xs[s], Ts[s], Ps, eta, shape)
-    if what == "omega":
-        return _finish(out, shape_, False)
+    if scalar and numpy.ndim(T) == 0:
+        # One spectrum at one temperature: its lines once, then the grid.
+        if what == "omega":
+            om2, u, v = _pole_pairs(1.0 / float(T), _spectrum_at(ps, True), eta)
+            for s in _steps(Xs.size, len(om2)):
+                out[s] = _omega_pairs(Xs[s], eta, om2, u, v)
+            return _finish(out, shape_, False)
+        freq, coef = _lines(what, 1.0 / float(T), _spectrum_at(ps, True))
+        for s in _steps(Xs.size, len(freq)):
+            out[s] = _grid(what, Xs[s], freq, coef, eta, shape)
+    else:
+        P = _spectrum_at(ps, True) if scalar else None
+        for s in _steps(Ts.size, len(_IA)):
+            Ps = P if scalar else _spectrum([p[s] for p in ps])
+            freq, coef = _lines(what, 1.0 / Ts[s], Ps)
+            out[s] = _grid(what, Xs[s], freq, coef, eta, shape)
     return _finish(out, shape_, real)
 
 
