@@ -130,17 +130,21 @@ def _energy_texts(energies) -> tuple[list[str], list[str]]:
     ``root{k}_of_P{j}`` (the k-th smallest real root of the j-th polynomial), and each
     polynomial is printed once in ``ROOT_SETS`` (the 21 levels of a spin 10 share one
     polynomial of a few hundred terms)."""
-    sets: list[tuple] = []
+    sets: dict[tuple, int] = {}
     names: dict = {}
+    lines = []
     for e in energies:
-        for r in sorted(e.atoms(LevelRoot), key=sp.default_sort_key):
+        # In level order; inside an expression (rare: a shifted root) in order of first
+        # appearance in its arguments (a tree walk, no sorting of the long coefficients).
+        roots = [e] if isinstance(e, LevelRoot) else \
+            [x for x in sp.preorder_traversal(e) if isinstance(x, LevelRoot)]
+        for r in roots:
             coeffs = tuple(r.args[1:])
-            if coeffs not in sets:
-                sets.append(coeffs)
-            names[r] = sp.Symbol(f"root{int(r.args[0])}_of_P{sets.index(coeffs)}")
-    lines = [f"    {sp.sstr(e.xreplace(names) if names else e)!r}," for e in energies]
+            j = sets.setdefault(coeffs, len(sets))
+            names[r] = sp.Symbol(f"root{int(r.args[0])}_of_P{j}")
+        lines.append(f"    {sp.sstr(names[e]) if isinstance(e, LevelRoot) else sp.sstr(e.xreplace(names))!r},")
     texts = []
-    for j, coeffs in enumerate(sets):
+    for coeffs, j in sets.items():
         checkpoint("writing the block evaluator: level polynomials")
         n = len(coeffs) - 1
         terms = []
@@ -148,7 +152,10 @@ def _energy_texts(energies) -> tuple[list[str], list[str]]:
             power = "" if i == n else "lambda" + (f"**{n - i}" if n - i > 1 else "")
             if c == 0:
                 continue
-            terms.append(sp.sstr(c) if not power else power if c == 1 else f"({sp.sstr(c)})*{power}")
+            # order="none": the terms in sympy's canonical argument order, without the
+            # ordering pass that takes seconds on coefficients of thousands of terms.
+            text = sp.sstr(c, order="none")
+            terms.append(text if not power else power if c == 1 else f"({text})*{power}")
         texts.append(f"    {('P' + str(j) + '(lambda) = ' + ' + '.join(terms))!r},")
     return lines, texts
 

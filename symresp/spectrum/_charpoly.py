@@ -170,13 +170,23 @@ def factored_charpoly(Hb: dict[tuple[int, int], sp.Expr], n: int, params: tuple[
         deg = max(m[0] for m in terms)
         if deg == 0:
             continue
-        cs = [sp.Integer(0)] * (deg + 1)
+        parts: list[list[sp.Expr]] = [[] for _ in range(deg + 1)]
         for monom, c in terms.items():
             mono = sp.Mul(*[s ** e for s, e in zip(syms[1:], monom[1:])])
-            cs[deg - monom[0]] += sp.Rational(int(c.p), int(c.q)) * mono
+            parts[deg - monom[0]].append(sp.Rational(int(c.p), int(c.q)) * mono)
+        cs = [sp.Add(*p) for p in parts]        # one Add per coefficient, not one per term
         lead = cs[0]
         if lead.is_Number and lead < 0:
             cs = [-c for c in cs]
-        out.append((tuple(cs), int(mult)))
-    out.sort(key=lambda fm: (len(fm[0]), sp.default_sort_key(fm[0])))
-    return out
+        # Factors of equal degree in a stable order: sympy's sort key, or for long factors
+        # (thousands of terms: a spin 10 in a tilted field) the text of the FLINT polynomial,
+        # which orders the same factors the same way and costs no tree walk.
+        size = len(terms)
+        key = (0, sp.default_sort_key(tuple(cs))) if size <= _SORT_KEY_TERMS else (1, str(f))
+        out.append(((tuple(cs), int(mult)), key))
+    out.sort(key=lambda fk: (len(fk[0][0]), fk[1]))
+    return [fm for fm, _ in out]
+
+
+#: Factors with more terms than this are ordered by their FLINT text (see factored_charpoly).
+_SORT_KEY_TERMS = 400

@@ -3,6 +3,7 @@ collected by pytest).
 
     python tests/perf/bench_ion.py            # S = 10 (field along z and x), S = 7/2 tilted
     python tests/perf/bench_ion.py --quick    # S = 10 only, fewer call repetitions
+    python tests/perf/bench_ion.py --spins    # S = 7/2 ... 10 in a tilted field: time to evaluator
 
 Each case runs in a fresh interpreter: the derivation (``Model(H).response(A)``), then the
 evaluator written and compiled twice, by the block writer (every block diagonalised at the
@@ -29,15 +30,18 @@ if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
 CASES = ("ion_s10_z", "ion_s10_x", "ion_s72_tilted")
+#: --spins: 2S of the single ions in a tilted field (S = 7/2 ... 10).
+SPINS = tuple(range(7, 21))
 
 
 def _model(name: str):
     import sympy as sp
     import symresp as sr
     D, E = sp.Symbol("D", real=True), sp.Symbol("E", real=True)
-    if name == "ion_s72_tilted":
+    if name == "ion_s72_tilted" or name.startswith("tilted_"):
         hx, hz = sp.Symbol("hx", real=True), sp.Symbol("hz", real=True)
-        s = sr.spin("s", sp.Rational(7, 2))
+        S2 = 7 if name == "ion_s72_tilted" else int(name.split("_")[1])
+        s = sr.spin("s", sp.Rational(S2, 2))
         H = D * s.z**2 + E * (s.x**2 - s.y**2) + hx * s.x + hz * s.z
         return H, s.z, {"D": 1.0, "E": 0.2, "hx": 0.3, "hz": 0.2}
     h = sp.Symbol("h", real=True)
@@ -69,6 +73,13 @@ def worker(name: str, repeat: int) -> None:
     r = sr.Model(H).response(A)
     derive = time.perf_counter() - t0
     out = {"case": name, "derive": derive, "levels": len(r.levels)}
+    if name.startswith("tilted_"):     # --spins: the time to a working evaluator only
+        t0 = time.perf_counter()
+        f = r.numpy()
+        f.chi_isothermal(0.7, **point)
+        out["evaluator"] = time.perf_counter() - t0
+        print(json.dumps(out))
+        return
     modules = {}
     for route in ("block", "pairwise"):
         switch = _numpy_module.uses_block_evaluator
@@ -107,6 +118,7 @@ def worker(name: str, repeat: int) -> None:
 def main(argv=None) -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true", help="S = 10 only, fewer repetitions")
+    ap.add_argument("--spins", action="store_true", help="S = 7/2 ... 10 in a tilted field")
     ap.add_argument("--worker", help=argparse.SUPPRESS)
     ap.add_argument("--repeat", type=int, default=None, help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
@@ -115,6 +127,8 @@ def main(argv=None) -> None:
         worker(args.worker, repeat)
         return
     names = CASES[:2] if args.quick else CASES
+    if args.spins:
+        names = tuple(f"tilted_{S2}" for S2 in SPINS)
     one, five, _ = os.getloadavg()
     print(f"# {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())}, {os.cpu_count()} cores, "
           f"load average at start {one:.2f} (1 min), {five:.2f} (5 min)")
@@ -133,6 +147,15 @@ def main(argv=None) -> None:
     one, five, _ = os.getloadavg()
     print(f"# load average at end {one:.2f} (1 min), {five:.2f} (5 min)")
     print()
+    if args.spins:
+        print("| S | model | levels | derive (s) | evaluator (s) | total (s) |")
+        print("|---|---|---:|---:|---:|---:|")
+        for r in rows:
+            S2 = int(r["case"].split("_")[1])
+            S = f"{S2 // 2}" if S2 % 2 == 0 else f"{S2}/2"
+            print(f"| {S} | D Sz^2 + E (Sx^2 - Sy^2) + hx Sx + hz Sz, A = Sz | {r['levels']} | "
+                  f"{r['derive']:.2f} | {r['evaluator']:.2f} | {r['derive'] + r['evaluator']:.2f} |")
+        return
     print("| case | levels | derive (s) | write block (s) | write per-pair (s) | ratio | "
           "lines block / per-pair | KB block / per-pair |")
     print("|---|---:|---:|---:|---:|---:|---:|---:|")
