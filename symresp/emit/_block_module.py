@@ -147,6 +147,12 @@ def _energy_texts(energies) -> tuple[list[str], list[str]]:
     for coeffs, j in sets.items():
         checkpoint("writing the block evaluator: level polynomials")
         n = len(coeffs) - 1
+        size = sum(len(sp.Add.make_args(c)) for c in coeffs)
+        if size > _POLYNOMIAL_TERMS:
+            # Printing takes seconds and the text would be hundreds of kilobytes: name it.
+            names_ = sorted({x.name for c in coeffs for x in c.free_symbols})
+            texts.append(f"    {('P' + str(j) + f'(lambda): degree {n}, {size} terms in lambda, ' + ', '.join(names_) + ' (exact in Response.levels)')!r},")
+            continue
         terms = []
         for i, c in enumerate(coeffs):
             power = "" if i == n else "lambda" + (f"**{n - i}" if n - i > 1 else "")
@@ -158,6 +164,10 @@ def _energy_texts(energies) -> tuple[list[str], list[str]]:
             terms.append(text if not power else power if c == 1 else f"({text})*{power}")
         texts.append(f"    {('P' + str(j) + '(lambda) = ' + ' + '.join(terms))!r},")
     return lines, texts
+
+
+#: Level polynomials with more terms than this are named in ROOT_SETS, not printed.
+_POLYNOMIAL_TERMS = 2000
 
 
 def _array_literal(a: numpy.ndarray) -> str:
