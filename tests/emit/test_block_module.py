@@ -266,3 +266,36 @@ def test_block_evaluator_runs_block_by_block_on_dask_arrays():
     hv = np.linspace(-1.0, 1.0, 8)
     lazy = f.chi_isothermal(da.from_array(T, chunks=(5, 1)), 1.0, 0.2, da.from_array(hv, chunks=3), 0.4)
     assert_close(lazy.compute(), f.chi_isothermal(T, 1.0, 0.2, hv, 0.4), what="chunked sweep")
+
+
+def test_symmetry_sectors_of_a_ring_are_diagonalised_in_their_own_basis():
+    # Three spins 1 on a ring with single-ion anisotropy in a transverse field: ring
+    # translations split the blocks into sectors with a rational, non-orthogonal basis (Gram
+    # matrix G, similarity G^-1/2), and their factors are semi-closed.
+    J, Dp, hp = (sp.Symbol(n, real=True) for n in ("J", "D", "h"))
+    s = [sr.spin(f"s{i}", 1) for i in range(3)]
+    H = sum(J * (s[i].vec @ s[(i + 1) % 3].vec) for i in range(3)) \
+        + Dp * sum(x.z**2 for x in s) + hp * sum(x.x for x in s)
+    r = sr.Model(H).response(sum(x.z for x in s))
+    assert any(sol.kind == "semi" and sol.block.sector is not None
+               for sol in r.derivation.spectrum.solutions)
+    f = r.numpy()
+    sx, sy, sz = _spin_matrices(2)
+
+    def site(op, i):
+        m = [np.eye(3)] * 3
+        m[i] = op
+        return np.kron(np.kron(m[0], m[1]), m[2])
+
+    S = [[site(o, i) for o in (sx, sy, sz)] for i in range(3)]
+    M = sum(S[i][2] for i in range(3))
+    for Jv, Dv, hv, T in [(1.0, 0.4, 0.3, 0.7), (-0.5, 1.2, 0.8, 2.0)]:
+        Hm = sum(Jv * S[i][k] @ S[(i + 1) % 3][k] for i in range(3) for k in range(3)) \
+            + Dv * sum(S[i][2] @ S[i][2] for i in range(3)) + hv * sum(S[i][0] for i in range(3))
+        ref = _solve(Hm, M, M, T)
+        at = dict(J=Jv, D=Dv, h=hv)
+        assert_close(f.chi_isothermal(T, **at), ref.isothermal, RTOL, ATOL, what="isothermal")
+        assert_close(f.chi_isolated(T, **at), ref.isolated, RTOL, ATOL, what="isolated")
+        assert_close(f.chi_omega(0.3, T, **at, eta=0.1),
+                     _solve(Hm, M, M, T, DYNAMIC_RTOL).frequency(0.3, 0.1), RTOL, ATOL,
+                     what="chi(omega)")
