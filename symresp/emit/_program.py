@@ -413,12 +413,18 @@ def _hoist_repeated(lines: list, func: type, prefix: str) -> list:
     every parameter), computed once in lines of their own put first; their arguments are values
     of the base program."""
     seen: dict = {}
+    calls = []
     for _, e in lines:
-        for call in e.atoms(func):
+        found = e.atoms(func)
+        calls.append(found)
+        for call in found:
             seen[call] = seen.get(call, 0) + 1
     repeated = sorted((c for c, n in seen.items() if n > 1), key=sp.default_sort_key)
     names = {c: sp.Symbol(f"{prefix}{k}", real=True) for k, c in enumerate(repeated)}
-    return [(sym, c) for c, sym in names.items()] + [(s, e.xreplace(names)) for s, e in lines]
+    # Only the lines that make such a call are rewritten.
+    return [(sym, c) for c, sym in names.items()] + [
+        (s, e.xreplace(names) if any(c in names for c in found) else e)
+        for (s, e), found in zip(lines, calls)]
 
 
 def _share_partials(lines: list, results: list) -> list:

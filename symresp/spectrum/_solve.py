@@ -608,7 +608,8 @@ def _vanishes(coeffs: dict[tuple[int, int], sp.Expr], xa: sp.Expr, xb: sp.Expr) 
         total = mpmath.mpf(0)
         size = mpmath.mpf(0)
         for (p, q), c in coeffs.items():
-            cm = mpmath.mpmathify(sp.N(c, ZERO_TEST_DIGITS))
+            cm = (mpmath.mpf(int(c.p)) / int(c.q) if c.is_Rational
+                  else mpmath.mpmathify(sp.N(c, ZERO_TEST_DIGITS)))
             term = cm * va**p * vb**q
             total += term
             size += abs(term)
