@@ -26,7 +26,7 @@ from __future__ import annotations
 import sympy as sp
 
 from ._plan import Plan
-from ._program import Program, _D, _E, _freeze, _root_lines, _S, _w
+from ._program import Program, _D, _E, _freeze, _root_lines, _S, _w, shared_subexpressions
 
 __all__ = ["correlation_program", "correlation_glue", "correlation_wrapper",
            "CORRELATION_RUNTIME"]
@@ -43,7 +43,7 @@ def correlation_program(plan: Plan) -> Program:
                                                  plan.mean_a, plan.mean_b)]
     targets += [(sp.Symbol(f"_Waa{a}"), v) for a, v in enumerate(waa)]
     exprs = [_freeze(e) for _, e in targets]
-    repl, reduced = sp.cse(exprs, symbols=sp.numbered_symbols("_q"), order="canonical")
+    repl, reduced = shared_subexpressions(exprs)
     lines = _root_lines(plan) + list(repl) + [(sym, e) for (sym, _), e in zip(targets, reduced)]
     del L
     return Program("_correlation_p", tuple(p.name for p in plan.parameters), (), tuple(lines),

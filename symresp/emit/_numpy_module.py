@@ -76,19 +76,37 @@ def _print_function(prog: Program, printer, name: str, inplace: bool = False,
     return out
 
 
-def _both(prog: Program, inplace: bool = False, real: bool = False) -> list[str]:
+def _printers() -> tuple[ScalarPrinter, ArrayPrinter]:
+    """The printers of one module (each keeps the texts it printed: see ``doprint``)."""
+    return ScalarPrinter({"standard": "python3"}), ArrayPrinter()
+
+
+def _both(prog: Program, inplace: bool = False, real: bool = False,
+          printers: tuple | None = None) -> list[str]:
     """Scalar (math) and array (numpy) flavours of one program; ``inplace`` writes the array
     flavour with in-place updates of its temporaries (stage B, :mod:`._inplace`), ``real``
     says every stage-P value it reads is real."""
-    lines = _print_function(prog, ScalarPrinter({"standard": "python3"}), prog.name + "_s")
+    scalar, array = printers if printers is not None else _printers()
+    lines = _print_function(prog, scalar, prog.name + "_s")
     lines.append("")
     lines.append("")
-    lines += _print_function(prog, ArrayPrinter(), prog.name + "_a", inplace, real)
+    lines += _print_function(prog, array, prog.name + "_a", inplace, real)
     return lines
 
 
 def _array_only(prog: Program) -> list[str]:
     return _print_function(prog, ArrayPrinter(), prog.name)
+
+
+def _energy_texts(energies) -> list[str]:
+    """The lines of ``ENERGIES``: each exact level as text. An exact root (``CRootOf``) is
+    printed once and its text reused (sympy rebuilds the polynomial each time it prints one,
+    and the levels of a large ring share a few hundred roots)."""
+    roots: set = set()
+    for e in energies:
+        roots |= e.atoms(sp.CRootOf)
+    names = {r: sp.Symbol(sp.sstr(r)) for r in roots}
+    return [f"    {sp.sstr(e.xreplace(names) if names else e)!r}," for e in energies]
 
 
 # ------------------------------------------------------------------------------ docstrings
@@ -513,7 +531,7 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
         f"PARAMETERS = {user!r}",
         f"DEGENERACIES = {tuple(plan.degeneracies)!r}",
         "ENERGIES = (",
-        *[f"    {sp.sstr(e)!r}," for e in levels],
+        *_energy_texts(levels),
         ")",
     ]
     src += runtime_source().splitlines()
@@ -528,20 +546,22 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
     src += ["", f"_STATIC = numpy.dtype({static_dtype})", f"_WAVE = numpy.dtype({wave_dtype})"]
     src += ["", "", "# " + "-" * 90, "# Stage P: parameters only (energies, spacings, weights).",
             "# " + "-" * 90, "", ""]
+    pr = _printers()
     for kind in kinds:
-        src += _both(P[kind]) + ["", ""]
-    src += _both(energies_program(plan)) + ["", ""]
-    src += _both(correlation_program(plan)) + ["", ""]
+        src += _both(P[kind], printers=pr) + ["", ""]
+    src += _both(energies_program(plan), printers=pr) + ["", ""]
+    src += _both(correlation_program(plan), printers=pr) + ["", ""]
     src += ["# " + "-" * 90, "# Stage B: temperature (Boltzmann factors, pair factors).",
             "# " + "-" * 90, "", ""]
     for kind in ("isothermal", "isolated"):
-        src += _both(static_program(plan, kind, P[kind].returns), True, static_real) + ["", ""]
+        src += _both(static_program(plan, kind, P[kind].returns), True, static_real,
+                     pr) + ["", ""]
         if "jacobian" in P:
             src += _both(jacobian_program(exact, kind, P["jacobian"].returns), True,
-                         static_real) + ["", ""]
+                         static_real, pr) + ["", ""]
     for what in ("omega", "spectral", "time"):
         src += _both(poles_program(plan, what, P["dynamic"].returns), True,
-                     not wave_complex) + ["", ""]
+                     not wave_complex, pr) + ["", ""]
     src += ["# " + "-" * 90, "# Stage W: the frequency or time grid.", "# " + "-" * 90, "", ""]
     src += _array_only(omega_program(plan)) + ["", ""]
     src += _array_only(spectral_program(plan, "lorentzian", wave_complex)) + ["", ""]

@@ -120,6 +120,9 @@ class _ProgramPrinting:
         # the same on every run): sorting them for display cost a third of the printing time
         # of a large evaluator, measured, and the code reads no worse.
         super().__init__({"order": "none", **(settings or {})})
+        # Texts already printed by this printer (one module prints the same level energies,
+        # spacings and weights in several programs).
+        self._texts: dict = {}
 
     def doprint(self, expr, assign_to=None) -> str:
         """The code of one expression; the plain case (no assignment target, nothing to declare
@@ -128,13 +131,19 @@ class _ProgramPrinting:
         if assign_to is not None or not isinstance(expr, sp.Basic) \
                 or expr.has(sp.UnevaluatedExpr):
             return super().doprint(expr, assign_to)
+        text = self._texts.get(expr)
+        if text is not None:
+            return text
         self._not_supported = set()
         self._number_symbols = set()
         text = self._print(expr)
         plain = not (self._not_supported or self._number_symbols or "\n" in text)
         self._not_supported = set()
         self._number_symbols = set()
-        return text if plain else super().doprint(expr)
+        if not plain:
+            return super().doprint(expr)
+        self._texts[expr] = text
+        return text
 
     def _helper(self, name: str, *args: sp.Expr) -> str:
         return f"_{name}{self._suffix}({', '.join(self._print(a) for a in args)})"

@@ -32,7 +32,8 @@ from ._printers import ConstantTable, freeze_constants
 
 __all__ = ["Program", "params_program", "static_program", "jacobian_program",
            "poles_program", "omega_program", "spectral_program", "time_program",
-           "energies_program", "differentiate", "freeze_plan", "BETA", "DEGENERACY_RTOL"]
+           "energies_program", "differentiate", "freeze_plan", "shared_subexpressions", "BETA",
+           "DEGENERACY_RTOL"]
 
 #: Relative level-grouping tolerance of the isolated susceptibility (symresp._tolerances).
 DEGENERACY_RTOL = sp.Float(_DEGENERACY_RTOL)
@@ -104,6 +105,26 @@ def freeze_plan(plan: Plan, table: ConstantTable) -> Plan:
                    mean_a=tuple(f(e) for e in plan.mean_a),
                    mean_b=tuple(f(e) for e in plan.mean_b),
                    eigen=tuple(block(eb) for eb in plan.eigen))
+
+
+def _flat(e: sp.Expr) -> bool:
+    """A number, a symbol, a number times a symbol, or a sum of those."""
+    if e.is_Number or e.is_Symbol:
+        return True
+    if e.is_Mul:
+        return len(e.args) == 2 and e.args[0].is_Number and e.args[1].is_Symbol
+    if e.is_Add:
+        return all(_flat(a) and not a.is_Add for a in e.args)
+    return False
+
+
+def shared_subexpressions(exprs: list) -> tuple[list, list]:
+    """:func:`sympy.cse` of ``exprs`` (symbols ``_q0, _q1, ...``), skipped where every
+    expression is flat (levels linear in the parameters, numeric weights: the common case of
+    a large model with one scale, where cse finds nothing worth a line and costs seconds)."""
+    if all(_flat(e) for e in exprs):
+        return [], list(exprs)
+    return sp.cse(exprs, symbols=sp.numbered_symbols("_q"), order="canonical")
 
 
 # ---------------------------------------------------------------------------------- stage P
@@ -180,7 +201,7 @@ def params_program(plan: Plan, kind: str) -> Program:
                     derivs.append((_dv(sym, i), d))
     all_targets = targets + derivs
     exprs = [_freeze(e) for _, e in all_targets]
-    repl, reduced = sp.cse(exprs, symbols=sp.numbered_symbols("_q"), order="canonical")
+    repl, reduced = shared_subexpressions(exprs)
     lines = head + [(s, e) for s, e in repl] + [(sym, e) for (sym, _), e in zip(all_targets, reduced)]
     energies = [_E(a) for a in range(L)]
     lines.append((_EMIN, LevelMin(*energies)))
@@ -206,7 +227,7 @@ def params_program(plan: Plan, kind: str) -> Program:
 def energies_program(plan: Plan) -> Program:
     """Level energies only (for ``energies(*params)``)."""
     exprs = [_freeze(e) for e in plan.energies]
-    repl, reduced = sp.cse(exprs, symbols=sp.numbered_symbols("_q"), order="canonical")
+    repl, reduced = shared_subexpressions(exprs)
     lines = _root_lines(plan) + list(repl) + [(_E(a), e) for a, e in enumerate(reduced)]
     return Program("_energies", tuple(p.name for p in plan.parameters), (), tuple(lines),
                    tuple(_E(a) for a in range(len(plan.energies))))
