@@ -362,9 +362,15 @@ def find_symmetries(basis: Basis, H: SparseForm) -> Symmetries:
 def decompose_entries(blk: dict) -> dict[sp.Expr, dict[tuple[int, int], Fraction]]:
     """Write a sparse matrix as sum_g g * R_g with scalar atoms g and rational matrices R_g."""
     out: dict[sp.Expr, dict[tuple[int, int], Fraction]] = {}
+    seen: dict = {}                 # a block repeats a few distinct entries (J/2, J/4 + h, ...)
     for key, v in blk.items():
-        for atom, c in sp.expand(v).as_coefficients_dict().items():
-            out.setdefault(atom, {})[key] = Fraction(int(c.p), int(c.q))
+        terms = seen.get(v)
+        if terms is None:
+            terms = [(atom, Fraction(int(c.p), int(c.q)))
+                     for atom, c in sp.expand(v).as_coefficients_dict().items()]
+            seen[v] = terms
+        for atom, c in terms:
+            out.setdefault(atom, {})[key] = c
     return out
 
 
