@@ -11,6 +11,8 @@ from hypothesis import HealthCheck, settings
 RTOL_EXACT, ATOL_EXACT = 1e-10, 1e-12
 #: Closed forms evaluated in double precision near cancellations.
 RTOL_LOOSE, ATOL_LOOSE = 1e-8, 1e-10
+#: Stored 70-digit values of exact algebraic roots against sympy's own root isolation.
+RTOL_ROOTS, ATOL_ROOTS = 1e-65, 1e-65
 
 settings.register_profile(
     "default", deadline=None, max_examples=20, database=None, derandomize=True,

@@ -39,7 +39,7 @@ import sympy as sp
 from ..errors import ClosedFormError, InputError
 from ..numeric import real_roots
 from ..response import Derivation
-from ..spectrum import LevelRoot
+from ..spectrum import LevelRoot, freeze_roots
 from ._plan import build_plan
 
 __all__ = ["LevelFunctions", "level_functions", "evaluator_parameters"]
@@ -249,7 +249,7 @@ def level_functions(derivation: Derivation, parameters: Sequence[sp.Symbol],
     energies = []
     for lv in derivation.levels:
         e = sp.sympify(lv.energy)  # safe: a sympy object of the derivation
-        e = e.xreplace({r: r.evalf(30) for r in e.atoms(sp.CRootOf)})
+        e = freeze_roots(e)
         extra = e.free_symbols - known
         if extra:
             raise InputError(f"level functions: the level {lv.energy} depends on "

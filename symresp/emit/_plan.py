@@ -44,9 +44,8 @@ import sympy as sp
 from ..errors import InputError
 from ..models import checkpoint
 from ..response import Derivation
-from ..spectrum import BlockWeight, LevelRoot, clean, real_root
+from ..spectrum import BlockWeight, LevelRoot, clean, freeze_roots, real_root, root_float
 from ..spectrum._implicit import weight_arrays
-from ..spectrum._solve import root_value
 
 __all__ = ["Plan", "Pair", "Group", "RootSet", "build_plan", "fingerprint", "is_zero"]
 
@@ -201,7 +200,7 @@ def _root_at(r: sp.Expr, point: dict, digits: int) -> sp.Float:
     """An implicit root at a point of the parameters, as a Float (a parametric LevelRoot at a
     rational point would become a CRootOf, which sympy isolates again on every evalf)."""
     if isinstance(r, sp.CRootOf):
-        return _root_number(r)
+        return root_float(r)
     key = (r, tuple(sorted(point.items(), key=lambda kv: kv[0].name)), digits)
     hit = _ROOTS_AT.get(key)
     if hit is None:
@@ -216,24 +215,8 @@ def _root_at(r: sp.Expr, point: dict, digits: int) -> sp.Float:
     return hit
 
 
-def _root_number(r: sp.CRootOf) -> sp.Expr:
-    """The 70-digit value of an exact algebraic constant (imaginary for a block with an
-    imaginary scale i*J)."""
-    v = root_value(r)
-    if isinstance(v, mpmath.mpc):
-        return sp.Float(v.real, 70) + sp.I * sp.Float(v.imag, 70)
-    return sp.Float(v, 70)
-
-
 # Values of implicit roots at the fixed sample points (immutable keys; pure function values).
 _ROOTS_AT: dict = {}
-
-
-def _frozen_roots(expr: sp.Expr) -> sp.Expr:
-    """``expr`` with each exact algebraic constant (CRootOf) replaced by its 70-digit value,
-    computed once per root (sympy isolates the root again on every evalf)."""
-    roots = expr.atoms(sp.CRootOf)
-    return expr.xreplace({r: _root_number(r) for r in roots}) if roots else expr
 
 
 def is_zero(expr: sp.Expr, cache: dict | None = None) -> bool:
@@ -246,7 +229,7 @@ def is_zero(expr: sp.Expr, cache: dict | None = None) -> bool:
     if expr.has(BlockWeight):
         return _weights_vanish(expr, {} if cache is None else cache)
     if not expr.free_symbols:
-        return abs(sp.N(_frozen_roots(expr), 50)) < _ZERO_CUTOFF
+        return abs(sp.N(freeze_roots(expr), 50)) < _ZERO_CUTOFF
     if expr.is_rational_function():
         # Rational in the parameters: cancellation decides exactly.
         return sp.cancel(expr) == 0
@@ -254,7 +237,7 @@ def is_zero(expr: sp.Expr, cache: dict | None = None) -> bool:
         # (Expanding products of implicit roots costs far more than the numeric test below.)
         return True
     syms = sorted(expr.free_symbols, key=lambda s: s.name)
-    expr = _frozen_roots(expr)
+    expr = freeze_roots(expr)
     for k in range(3):
         pt = _sample(syms, k)
         roots = {r: _root_at(r, pt, 60) for r in expr.atoms(LevelRoot)}

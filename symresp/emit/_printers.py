@@ -22,6 +22,7 @@ import sympy as sp
 from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.pycode import PythonCodePrinter
 
+from ..spectrum import freeze_roots
 from ._functions import (AsComplex, AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal,
                          DegeneracyTol, ExpDiv, ExpDiv2, Keep, LevelMin, RootPick, SemiEigen,
                          SemiWeights)
@@ -66,7 +67,8 @@ class ConstantTable:
 def _convert(number: sp.Expr) -> sp.Expr:
     if isinstance(number, sp.NumberSymbol):
         return _float(number)
-    value = sp.N(number, DIGITS)
+    # Exact roots take their stored values (each polynomial solved once per process).
+    value = sp.N(freeze_roots(number), DIGITS)
     if value.is_real is False or value.has(sp.I):
         re, im = value.as_real_imag()
         return _float(re) + sp.I * _float(im) if im != 0 else _float(re)

@@ -34,7 +34,8 @@ from mpmath.ctx_mp import MPContext
 
 from ..errors import InputError
 from ..numeric import real_roots
-from ..spectrum import BlockWeight, LevelRoot, real_root
+from ..spectrum import BlockWeight, LevelRoot, freeze_roots, real_root
+from ..spectrum._roots import ROOT_DIGITS
 from ..spectrum._implicit import weight_arrays, weight_mp
 
 __all__ = ["evaluate_exact", "evaluate_mp", "to_mp", "evaluate_precise", "evaluate_arrays",
@@ -47,10 +48,14 @@ PREC_BITS = int((PRECISE_DIGITS + 10) * 3.33)
 
 
 def _exact_roots(expr: sp.Expr, digits: int) -> sp.Expr:
-    """Each ``CRootOf`` replaced by a float of ``digits`` digits (it would isolate its root
-    again on every evaluation)."""
+    """Each ``CRootOf`` replaced by a float of at least ``digits`` digits (it would isolate its
+    root again on every evaluation)."""
     roots = expr.atoms(sp.CRootOf)
-    return expr.xreplace({r: r.evalf(digits) for r in roots}) if roots else expr
+    if not roots:
+        return expr
+    if digits <= ROOT_DIGITS:
+        return freeze_roots(expr)
+    return expr.xreplace({r: r.evalf(digits) for r in roots})
 
 
 def _substitute(expr: object, point: Mapping[sp.Symbol, sp.Expr], where: str) -> sp.Expr:

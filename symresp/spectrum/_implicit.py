@@ -34,7 +34,7 @@ import numpy
 import sympy as sp
 
 from ._eigen_numeric import _semieig_a, _semiw_a
-from ._roots import LevelRoot, real_root
+from ._roots import LevelRoot, real_root, root_float
 
 __all__ = ["ImplicitBlock", "BlockWeight", "block_spec", "weights_numpy", "weights_mp",
            "weight_arrays", "weight_mp", "gram_root", "value_at", "implicit_atoms", "implicit_roots"]
@@ -499,7 +499,7 @@ def value_at(expr: sp.Expr, point: dict, dps: int = 30) -> complex:
                 values[r] = sp.Float(real_root(int(k), cs, extra=2 * dps), dps)
             elif isinstance(r, sp.CRootOf):
                 # (a block with an imaginary scale i*J has imaginary roots)
-                values[r] = _crootof_value(r, dps)
+                values[r] = root_float(r)
             else:
                 v = complex(weight_mp(r, lambda e: mpmath.mpmathify(sp.N(e.xreplace(point), dps + 10)),
                                       dps, cache))
@@ -511,14 +511,3 @@ def value_at(expr: sp.Expr, point: dict, dps: int = 30) -> complex:
 _COEFFS: dict = {}
 
 
-def _crootof_value(r: sp.CRootOf, dps: int):
-    key = (r, dps)
-    hit = _ROOTS.get(key)
-    if hit is None:
-        hit = r.evalf(dps + 5)
-        _ROOTS[key] = hit
-    return hit
-
-
-# Values of exact algebraic constants by precision (immutable keys; pure function values).
-_ROOTS: dict = {}

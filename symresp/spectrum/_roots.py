@@ -17,7 +17,8 @@ import mpmath
 import numpy
 import sympy as sp
 
-__all__ = ["LevelRoot", "real_root", "real_roots"]
+__all__ = ["LevelRoot", "real_root", "real_roots", "root_value", "root_float", "freeze_roots",
+           "ROOT_DIGITS"]
 
 
 def real_roots(coeffs, ctx=mpmath.mp, extra: int = 200) -> tuple:
@@ -94,6 +95,106 @@ def real_root(k: int, coeffs, ctx=mpmath.mp, extra: int = 200):
 
 # All real roots of numeric polynomials by precision (immutable keys; pure function values).
 _ALL_ROOTS: dict = {}
+
+
+#: Digits of the stored value of every exact algebraic root (``CRootOf``): the zero tests of
+#: weights work at 60 digits, the evaluators' constants at 30.
+ROOT_DIGITS = 70
+
+
+def root_value(x: sp.Expr):
+    """The value of an exact algebraic constant (``CRootOf``, or any exact number the caller
+    meets in its place) at ROOT_DIGITS digits, as an mpmath number (an ``mpc`` for a complex
+    root).
+
+    The first root asked for of a polynomial brings all its roots (:func:`_all_roots`), so a
+    large derivation solves each polynomial once, however many levels, weights and constants
+    hold its roots (sympy isolates and refines a ``CRootOf`` again on every evaluation, and
+    refining a complex root to 70 digits takes it seconds).
+    """
+    if not isinstance(x, sp.CRootOf):
+        with mpmath.workdps(ROOT_DIGITS):
+            return mpmath.mpmathify(sp.N(x, ROOT_DIGITS))
+    key = (x.poly, int(x.index))
+    hit = _ROOT_VALUES.get(key)
+    if hit is None:
+        if len(_ROOT_VALUES) > 1 << 14:
+            _ROOT_VALUES.clear()
+        values = _all_roots(x.poly)
+        if values is not None:
+            for k, v in enumerate(values):
+                _ROOT_VALUES[(x.poly, k)] = v
+            hit = values[key[1]]
+        else:                           # not resolved: sympy's refinement of this root
+            with mpmath.workdps(ROOT_DIGITS):
+                hit = mpmath.mpmathify(sp.N(x, ROOT_DIGITS))
+            _ROOT_VALUES[key] = hit
+    return hit
+
+
+def _all_roots(poly) -> list | None:
+    """The roots of an irreducible integer polynomial in the index order of ``CRootOf``, as
+    ROOT_DIGITS-digit mpmath numbers, or None where they are not resolved.
+
+    The real roots come first, ascending: when the exact count of real roots (Sturm sequence)
+    equals the degree, :func:`real_roots` finds them all. Otherwise :func:`mpmath.polyroots`
+    finds every root at raised precision; the real ones are those the exact count says, and each
+    complex root is matched to sympy's own isolation of it at 15 digits (cheap), which fixes
+    sympy's order of the complex roots. Roots of an irreducible polynomial are simple, so two
+    computed roots closer than the matching precision mean "not resolved".
+    """
+    degree = poly.degree()
+    n_real = poly.count_roots()
+    coeffs = [mpmath.mpf(int(c.p)) / int(c.q) for c in poly.all_coeffs()]
+    extra = 4 * ROOT_DIGITS + 10 * degree
+    if n_real == degree:
+        with mpmath.workdps(ROOT_DIGITS + 10):
+            found = real_roots(coeffs, extra=extra)
+        if len(found) != degree:
+            return None
+        with mpmath.workdps(ROOT_DIGITS):
+            return [+v for v in found]
+    with mpmath.workdps(ROOT_DIGITS + 20):
+        try:
+            found = mpmath.polyroots(coeffs, maxsteps=200, extraprec=extra)
+        except mpmath.NoConvergence:
+            return None
+        found = sorted(found, key=lambda z: abs(mpmath.im(z)))
+        reals = sorted(mpmath.re(z) for z in found[:n_real])
+        others = found[n_real:]
+        size = max(abs(z) for z in found) + 1
+        if any(abs(mpmath.im(z)) > size * mpmath.mpf(10) ** (-ROOT_DIGITS) for z in found[:n_real]):
+            return None
+        out = list(reals)
+        for k in range(n_real, degree):
+            guess = complex(sp.CRootOf(poly, k).evalf(15))
+            near = sorted(others, key=lambda z: abs(z - guess))
+            if len(near) > 1 and abs(near[1] - guess) < 1e-6 * (1 + abs(guess)):
+                return None
+            if abs(near[0] - guess) > 1e-10 * (1 + abs(guess)):
+                return None
+            out.append(near[0])
+    with mpmath.workdps(ROOT_DIGITS):
+        return [+v for v in out]
+
+
+def root_float(x: sp.CRootOf) -> sp.Expr:
+    """:func:`root_value` as a sympy Float (or Float plus i times Float) of ROOT_DIGITS digits."""
+    v = root_value(x)
+    if isinstance(v, mpmath.mpc):
+        return sp.Float(v.real, ROOT_DIGITS) + sp.I * sp.Float(v.imag, ROOT_DIGITS)
+    return sp.Float(v, ROOT_DIGITS)
+
+
+def freeze_roots(expr: sp.Expr) -> sp.Expr:
+    """``expr`` with every exact algebraic constant (``CRootOf``) replaced by :func:`root_float`."""
+    roots = expr.atoms(sp.CRootOf)
+    return expr.xreplace({r: root_float(r) for r in roots}) if roots else expr
+
+
+# Values of exact algebraic roots by (polynomial, index) (immutable keys; values are pure
+# functions of them).
+_ROOT_VALUES: dict[tuple, object] = {}
 
 
 class LevelRoot(sp.Function):

@@ -47,7 +47,7 @@ from ._blocks import Block, BlockStructure, decompose
 from ._charpoly import factored_charpoly
 from ._implicit import BlockWeight, ImplicitBlock, weights_mp, weights_numpy
 from ._quadratic import Radical, Surd, bilinear
-from ._roots import LevelRoot
+from ._roots import LevelRoot, freeze_roots, root_value
 from ._symmetry import (SECTOR_NAMES, _sparse_fmpq, decompose_entries, find_symmetries,
                         split_block, transform, transform_blocks)
 
@@ -616,20 +616,6 @@ def _vanishes(coeffs: dict[tuple[int, int], sp.Expr], xa: sp.Expr, xb: sp.Expr) 
         return bool(abs(total) <= size * mpmath.mpf(10) ** (15 - ZERO_TEST_DIGITS))
 
 
-def root_value(x: sp.Expr):
-    """The value of an exact algebraic constant (CRootOf) at ZERO_TEST_DIGITS + 10 digits, as
-    an mpmath number, computed once per root."""
-    hit = _ROOT_VALUES.get(x)
-    if hit is None:
-        hit = mpmath.mpmathify(sp.N(x, ZERO_TEST_DIGITS + 10))
-        _ROOT_VALUES[x] = hit
-    return hit
-
-
-# Numeric values of exact algebraic roots (immutable keys; values are pure functions of them).
-_ROOT_VALUES: dict[sp.Expr, object] = {}
-
-
 def _tidy_implicit(w: sp.Expr, den: sp.Expr = sp.Integer(1)) -> sp.Expr:
     """A weight ``w / den`` with ``w`` a polynomial in implicit roots.
 
@@ -653,9 +639,7 @@ def is_zero_number(w: sp.Expr) -> bool:
     """
     if not w.has(sp.CRootOf):
         return sp.expand(w) == 0
-    with mpmath.workdps(ZERO_TEST_DIGITS + 10):
-        roots = {r: sp.Float(root_value(r), ZERO_TEST_DIGITS + 10) for r in w.atoms(sp.CRootOf)}
-        value = sp.N(w.xreplace(roots), ZERO_TEST_DIGITS)
+    value = sp.N(freeze_roots(w), ZERO_TEST_DIGITS)
     return abs(complex(value)) < 10.0 ** (15 - ZERO_TEST_DIGITS)
 
 
