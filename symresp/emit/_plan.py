@@ -44,7 +44,8 @@ import sympy as sp
 from ..errors import InputError
 from ..models import checkpoint
 from ..response import Derivation
-from ..spectrum import BlockWeight, LevelRoot, clean, freeze_roots, real_root, root_float
+from ..spectrum import (BlockWeight, LevelRoot, atoms_outside_roots, clean, freeze_roots,
+                        number_value, real_root, replace_outside_roots, root_float)
 from ..spectrum._implicit import weight_arrays
 
 __all__ = ["Plan", "Pair", "Group", "RootSet", "build_plan", "fingerprint", "is_zero"]
@@ -229,7 +230,7 @@ def is_zero(expr: sp.Expr, cache: dict | None = None) -> bool:
     if expr.has(BlockWeight):
         return _weights_vanish(expr, {} if cache is None else cache)
     if not expr.free_symbols:
-        return abs(sp.N(freeze_roots(expr), 50)) < _ZERO_CUTOFF
+        return abs(number_value(expr)) < mpmath.mpf(_ZERO_CUTOFF)
     if expr.is_rational_function():
         # Rational in the parameters: cancellation decides exactly.
         return sp.cancel(expr) == 0
@@ -314,7 +315,8 @@ def build_plan(d: Derivation) -> Plan:
     rename = dict(zip(original, safe))
 
     def sub(e: sp.Expr) -> sp.Expr:
-        return sp.sympify(e).xreplace(rename)  # safe: derivation values are already sympy objects
+        # safe: derivation values are already sympy objects
+        return replace_outside_roots(sp.sympify(e), rename)
 
     energies = tuple(sub(lv.energy) for lv in levels)
     implicit = tuple(lv.implicit for lv in levels)
@@ -365,8 +367,8 @@ def build_plan(d: Derivation) -> Plan:
                               *fluct, *mean_a, *mean_b])
 
     def r(e: sp.Expr) -> sp.Expr:
-        e = e.xreplace(wmap) if wmap else e
-        return e.xreplace(rmap) if rmap else e
+        e = replace_outside_roots(e, wmap) if wmap else e
+        return replace_outside_roots(e, rmap) if rmap else e
 
     pairs = [Pair(p.a, p.b, r(p.w), r(p.S), r(p.D)) for p in pairs]
     return Plan(safe, original, tuple(r(e) for e in energies),
@@ -392,7 +394,8 @@ def _weight_symbols(exprs: list[sp.Expr]) -> tuple[tuple, dict]:
     """A symbol for each semi-closed weight (:class:`BlockWeight`) in ``exprs``."""
     atoms: set = set()
     for e in exprs:
-        atoms |= sp.sympify(e).atoms(BlockWeight)  # safe: derivation values are already sympy objects
+        # safe: derivation values are already sympy objects
+        atoms |= atoms_outside_roots(sp.sympify(e), BlockWeight)
     out, wmap = [], {}
     for k, w in enumerate(sorted(atoms, key=sp.default_sort_key)):
         sym = sp.Symbol(f"_bw{k}", real=True) if _is_real_weight(w) else sp.Symbol(f"_bw{k}", real=False)
@@ -405,7 +408,8 @@ def _root_sets(exprs: list[sp.Expr]) -> tuple[tuple[RootSet, ...], dict]:
     """Symbols for the implicit roots in ``exprs``, grouped by their defining polynomial."""
     atoms: set = set()
     for e in exprs:
-        atoms |= sp.sympify(e).atoms(LevelRoot)  # safe: derivation values are already sympy objects
+        # safe: derivation values are already sympy objects
+        atoms |= atoms_outside_roots(sp.sympify(e), LevelRoot)
     by_poly: dict[tuple, list] = {}
     for a in atoms:
         by_poly.setdefault(tuple(a.args[1:]), []).append(a)
@@ -427,11 +431,12 @@ def _group_pairs(pairs: list[Pair], symbols: tuple[sp.Symbol, ...]) -> tuple[Gro
     buckets: dict[str, list[int]] = {}
     groups: list[list[tuple[int, int]]] = []
     # Each implicit root evaluated once (CRootOf isolates its root again on every evalf).
-    atoms = set().union(*[p.w.atoms(sp.CRootOf, LevelRoot) for p in pairs]) if pairs else set()
+    atoms = set().union(*[atoms_outside_roots(p.w, sp.CRootOf, LevelRoot) for p in pairs]) \
+        if pairs else set()
     roots = {a: _root_at(a, point, 50) for a in atoms}
     for k, p in enumerate(pairs):
         checkpoint("planning the evaluator: grouping pole pairs", f"pair {k + 1} of {len(pairs)}")
-        value = sp.N(p.w.xreplace(roots).xreplace(point), 40)
+        value = sp.N(replace_outside_roots(replace_outside_roots(p.w, roots), point), 40)
         if value.has(sp.I) or not value.is_real:
             raise InputError(f"emit: level spacing {p.w} is not real")
         key = sp.Float(abs(value), 40).__format__(f".{_KEY_DIGITS}e")

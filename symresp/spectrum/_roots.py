@@ -18,7 +18,7 @@ import numpy
 import sympy as sp
 
 __all__ = ["LevelRoot", "real_root", "real_roots", "root_value", "root_float", "freeze_roots",
-           "ROOT_DIGITS"]
+           "atoms_outside_roots", "replace_outside_roots", "number_value", "ROOT_DIGITS"]
 
 
 def real_roots(coeffs, ctx=mpmath.mp, extra: int = 200) -> tuple:
@@ -188,8 +188,92 @@ def root_float(x: sp.CRootOf) -> sp.Expr:
 
 def freeze_roots(expr: sp.Expr) -> sp.Expr:
     """``expr`` with every exact algebraic constant (``CRootOf``) replaced by :func:`root_float`."""
-    roots = expr.atoms(sp.CRootOf)
-    return expr.xreplace({r: root_float(r) for r in roots}) if roots else expr
+    roots = atoms_outside_roots(expr, sp.CRootOf)
+    return replace_outside_roots(expr, {r: root_float(r) for r in roots}) if roots else expr
+
+
+def number_value(expr: sp.Expr):
+    """The value of an exact number (rationals, radicals, ``I``, exact roots, Floats) as an
+    mpmath number at ROOT_DIGITS digits, read directly off the expression tree with each
+    ``CRootOf`` taken from :func:`root_value` (no sympy expression is rebuilt; anything else,
+    such as a function of a number, goes through :func:`sympy.N`)."""
+    with mpmath.workdps(ROOT_DIGITS + 10):
+        v = _number_mp(expr, {})
+    with mpmath.workdps(ROOT_DIGITS):
+        return +v
+
+
+def _number_mp(e: sp.Expr, memo: dict):
+    hit = memo.get(e)
+    if hit is not None:
+        return hit
+    if isinstance(e, sp.CRootOf):
+        v = root_value(e)
+    elif e.is_Integer:
+        v = mpmath.mpf(int(e))
+    elif e.is_Rational:
+        v = mpmath.mpf(int(e.p)) / int(e.q)
+    elif e.is_Float:
+        v = mpmath.mpf(e._mpf_)
+    elif e is sp.I:
+        v = mpmath.mpc(0, 1)
+    elif e.is_Add:
+        v = mpmath.fsum(_number_mp(a, memo) for a in e.args)
+    elif e.is_Mul:
+        v = mpmath.mpf(1)
+        for a in e.args:
+            v *= _number_mp(a, memo)
+    elif e.is_Pow:
+        v = _number_mp(e.base, memo) ** _number_mp(e.exp, memo)
+    else:
+        v = mpmath.mpmathify(sp.N(freeze_roots(e), ROOT_DIGITS + 10))
+    memo[e] = v
+    return v
+
+
+def atoms_outside_roots(expr: sp.Expr, *types: type) -> set:
+    """``expr.atoms(*types)``, except that an exact root (``CRootOf``) is not entered.
+
+    sympy rebuilds a ``CRootOf``'s polynomial as an expression each time its ``args`` are read,
+    and a traversal then walks that polynomial too: a weight of a few dozen terms in the roots
+    of a degree-8 factor took tens of milliseconds per traversal, and a large derivation makes
+    thousands of them. A root holds no parameter, so nothing is missed.
+    """
+    out: set = set()
+    seen: set = set()
+    stack = [expr]
+    while stack:
+        e = stack.pop()
+        if isinstance(e, types):
+            out.add(e)
+        if isinstance(e, sp.CRootOf) or not isinstance(e, sp.Basic):
+            continue
+        for a in e.args:
+            if a not in seen:
+                seen.add(a)
+                stack.append(a)
+    return out
+
+
+def replace_outside_roots(expr: sp.Expr, rule: dict) -> sp.Expr:
+    """``expr.xreplace(rule)``, except that an exact root (``CRootOf``) is not entered (see
+    :func:`atoms_outside_roots`); a ``CRootOf`` itself may be a key of ``rule``."""
+    memo: dict = {}
+
+    def go(e):
+        hit = rule.get(e)
+        if hit is not None:
+            return hit
+        if isinstance(e, sp.CRootOf) or not e.args:
+            return e
+        done = memo.get(e)
+        if done is None:
+            args = tuple(go(a) for a in e.args)
+            done = e if all(x is y for x, y in zip(args, e.args)) else e.func(*args)
+            memo[e] = done
+        return done
+
+    return go(expr) if isinstance(expr, sp.Basic) else expr
 
 
 # Values of exact algebraic roots by (polynomial, index) (immutable keys; values are pure

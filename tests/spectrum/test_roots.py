@@ -8,7 +8,8 @@ import sympy as sp
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
-from symresp.spectrum import LevelRoot, freeze_roots, root_float, root_value
+from symresp.spectrum import (LevelRoot, atoms_outside_roots, freeze_roots, replace_outside_roots,
+                             root_float, root_value)
 
 from ..conftest import ATOL_ROOTS, RTOL_EXACT, RTOL_ROOTS
 
@@ -94,3 +95,18 @@ def test_frozen_roots_leave_no_exact_root_behind():
     with mpmath.workdps(80):
         expected = mpmath.mpmathify((3 * r**2 - sp.sqrt(2) * r + 1).evalf(75))
         assert _close(mpmath.mpmathify(sp.N(e, 70)), expected)
+
+
+def test_traversals_outside_roots_agree_with_sympy():
+    # The same atoms and the same replacement as sympy's atoms / xreplace, without entering the
+    # exact roots (whose polynomial sympy rebuilds on every visit).
+    J = sp.Symbol("J", positive=True)
+    r = sp.CRootOf(sp.Poly([2, 0, -4, -1], sp.Symbol("x")), 1)
+    lam = LevelRoot(2, 1, 0, -J, 1)
+    e = 3 * r**2 * J - sp.sqrt(2) * r * lam + J**2 / (1 + r) + lam
+    for types in ((sp.CRootOf,), (LevelRoot,), (sp.Pow,), (sp.CRootOf, LevelRoot)):
+        inside = r.poly.as_expr().atoms(*types)         # the root's own polynomial: x**3
+        assert atoms_outside_roots(e, *types) == e.atoms(*types) - inside, types
+    rule = {J: sp.Rational(5, 3), r: sp.Float("0.25", 30)}
+    assert replace_outside_roots(e, rule) == e.xreplace(rule)
+    assert replace_outside_roots(e, {}) is e
