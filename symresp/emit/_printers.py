@@ -18,11 +18,12 @@ Imports: sympy and :mod:`._functions`.
 
 from __future__ import annotations
 
+import mpmath
 import sympy as sp
 from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.pycode import PythonCodePrinter
 
-from ..spectrum import freeze_roots
+from ..spectrum import ROOT_DIGITS, number_value
 from ._functions import (AsComplex, AtMin, BlockEigen, Boltzmann, BoltzmannT, Causal,
                          DegeneracyTol, ExpDiv, ExpDiv2, Keep, LevelMin, RootPick, SemiEigen,
                          SemiWeights)
@@ -67,8 +68,14 @@ class ConstantTable:
 def _convert(number: sp.Expr) -> sp.Expr:
     if isinstance(number, sp.NumberSymbol):
         return _float(number)
-    # Exact roots take their stored values (each polynomial solved once per process).
-    value = sp.N(freeze_roots(number), DIGITS)
+    if number.has(sp.CRootOf):
+        # Read off the tree with the stored root values (each polynomial solved once per
+        # process); an imaginary part at rounding level of 70 digits is none.
+        v = number_value(number)
+        if isinstance(v, mpmath.mpc) and abs(v.imag) > abs(v) * mpmath.mpf(10) ** (15 - ROOT_DIGITS):
+            return sp.Float(v.real, DIGITS) + sp.I * sp.Float(v.imag, DIGITS)
+        return sp.Float(mpmath.re(v), DIGITS)
+    value = sp.N(number, DIGITS)
     if value.is_real is False or value.has(sp.I):
         re, im = value.as_real_imag()
         return _float(re) + sp.I * _float(im) if im != 0 else _float(re)

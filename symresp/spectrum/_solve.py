@@ -47,7 +47,7 @@ from ._blocks import Block, BlockStructure, decompose
 from ._charpoly import factored_charpoly
 from ._implicit import BlockWeight, ImplicitBlock, weights_mp, weights_numpy
 from ._quadratic import Radical, Surd, bilinear
-from ._roots import LevelRoot, freeze_roots, root_value
+from ._roots import LevelRoot, number_value, root_value
 from ._symmetry import (SECTOR_NAMES, _sparse_fmpq, decompose_entries, find_symmetries,
                         split_block, transform, transform_blocks)
 
@@ -639,8 +639,7 @@ def is_zero_number(w: sp.Expr) -> bool:
     """
     if not w.has(sp.CRootOf):
         return sp.expand(w) == 0
-    value = sp.N(freeze_roots(w), ZERO_TEST_DIGITS)
-    return abs(complex(value)) < 10.0 ** (15 - ZERO_TEST_DIGITS)
+    return abs(number_value(w)) < mpmath.mpf(10) ** (15 - ZERO_TEST_DIGITS)
 
 
 def _unified_domain(K, entries: list[sp.Expr]):
@@ -750,6 +749,32 @@ def _flat_products(powers, comp: dict[tuple[int, int], Fraction], nrow: int, nco
     return flint.fmpq_mat(D, width, rows)
 
 
+def _root_polynomial(total: dict[tuple[int, int], sp.Expr], xa: sp.Expr, xb: sp.Expr) -> sp.Expr:
+    """sum_pq c_pq xa^p xb^q for rational c_pq, one term per monomial, built without sympy's
+    automatic evaluation: the sum is already in expanded form, and evaluating it (or expanding
+    it) asks the assumptions of every product of roots again, about 15 times the cost, for
+    thousands of weights of a large ring."""
+    if xa == xb:
+        merged: dict[tuple[int, int], sp.Expr] = {}
+        for (p, q), c in total.items():
+            merged[(p + q, 0)] = merged.get((p + q, 0), sp.Integer(0)) + c
+        total = merged
+    terms = []
+    for (p, q), c in sorted(total.items()):
+        if c == 0:
+            continue
+        factors = [x if k == 1 else sp.Pow(x, k) for x, k in ((xa, p), (xb, q)) if k]
+        if not factors:
+            terms.append(c)
+        elif c == 1 and len(factors) == 1:
+            terms.append(factors[0])
+        else:
+            terms.append(sp.Mul(*([] if c == 1 else [c]), *factors, evaluate=False))
+    if not terms:
+        return sp.Integer(0)
+    return terms[0] if len(terms) == 1 else sp.Add(*terms, evaluate=False)
+
+
 def _pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
                   ) -> dict[tuple[int, int, int, int], sp.Expr]:
     """Weights Tr(P_a A P_b B) for all parts a of block i and b of block j."""
@@ -778,8 +803,18 @@ def _pair_weights(si: BlockSolution, sj: BlockSolution, a_blk: dict, b_blk: dict
                     for rb, xb in enumerate(fB.roots):
                         if implicit_pair and _vanishes(total, xa, xb):
                             continue
-                        w = sum((c * xa**p * xb**q for (p, q), c in total.items()), sp.Integer(0))
-                        w = sp.expand(w) if (xa.is_Rational and xb.is_Rational) or fA.implicit or fB.implicit else clean(w)
+                        if implicit_pair and all(c.is_Rational for c in total.values()):
+                            w = _root_polynomial(total, xa, xb)
+                            if w != 0:
+                                out[(fa, ra, fb, rb)] = w
+                            continue
+                        w = sp.Add(*[c * xa**p * xb**q for (p, q), c in total.items()])
+                        if implicit_pair:
+                            w = sp.expand(w)
+                        elif xa.is_Rational and xb.is_Rational:
+                            w = sp.expand(w)
+                        else:
+                            w = clean(w)
                         if w != 0:
                             out[(fa, ra, fb, rb)] = w
         return out
