@@ -227,7 +227,8 @@ def is_zero(expr: sp.Expr, cache: dict | None = None) -> bool:
     expr = sp.sympify(expr)  # safe: derivation values are already sympy objects
     if expr == 0:
         return True
-    if expr.has(BlockWeight):
+    # (not ``has``: it walks the polynomial of every exact root, see atoms_outside_roots)
+    if atoms_outside_roots(expr, BlockWeight):
         return _weights_vanish(expr, {} if cache is None else cache)
     if not expr.free_symbols:
         return abs(number_value(expr)) < mpmath.mpf(_ZERO_CUTOFF)
@@ -315,8 +316,7 @@ def build_plan(d: Derivation) -> Plan:
     rename = dict(zip(original, safe))
 
     def sub(e: sp.Expr) -> sp.Expr:
-        # safe: derivation values are already sympy objects
-        return replace_outside_roots(sp.sympify(e), rename)
+        return replace_outside_roots(sp.sympify(e), rename)  # safe: derivation values are sympy objects
 
     energies = tuple(sub(lv.energy) for lv in levels)
     implicit = tuple(lv.implicit for lv in levels)
@@ -335,7 +335,11 @@ def build_plan(d: Derivation) -> Plan:
             if same or wab == wba:
                 # A = B: Tr(P_a A P_b A) = Tr(P_b A P_a A), and the derivation's weights are
                 # already tidied; nothing to simplify or test.
-                S, D = 2 * (wab if wab != 0 else wba), sp.Integer(0)
+                w = wab if wab != 0 else wba
+                # A number in exact roots stays one product (2*(sum) would distribute the 2
+                # over thousands of terms and evaluate each again).
+                S = sp.Mul(2, w, evaluate=False) if w.is_Add and not w.free_symbols else 2 * w
+                D = sp.Integer(0)
             else:
                 S = _tidy(wab + wba, imp)
                 D = _tidy(wab - wba, imp)
@@ -394,8 +398,7 @@ def _weight_symbols(exprs: list[sp.Expr]) -> tuple[tuple, dict]:
     """A symbol for each semi-closed weight (:class:`BlockWeight`) in ``exprs``."""
     atoms: set = set()
     for e in exprs:
-        # safe: derivation values are already sympy objects
-        atoms |= atoms_outside_roots(sp.sympify(e), BlockWeight)
+        atoms |= atoms_outside_roots(sp.sympify(e), BlockWeight)  # safe: derivation values are sympy objects
     out, wmap = [], {}
     for k, w in enumerate(sorted(atoms, key=sp.default_sort_key)):
         sym = sp.Symbol(f"_bw{k}", real=True) if _is_real_weight(w) else sp.Symbol(f"_bw{k}", real=False)
@@ -408,8 +411,7 @@ def _root_sets(exprs: list[sp.Expr]) -> tuple[tuple[RootSet, ...], dict]:
     """Symbols for the implicit roots in ``exprs``, grouped by their defining polynomial."""
     atoms: set = set()
     for e in exprs:
-        # safe: derivation values are already sympy objects
-        atoms |= atoms_outside_roots(sp.sympify(e), LevelRoot)
+        atoms |= atoms_outside_roots(sp.sympify(e), LevelRoot)  # safe: derivation values are sympy objects
     by_poly: dict[tuple, list] = {}
     for a in atoms:
         by_poly.setdefault(tuple(a.args[1:]), []).append(a)

@@ -448,6 +448,10 @@ def _hoist_repeated(lines: list, func: type, prefix: str) -> list:
         for (s, e), found in zip(lines, calls)]
 
 
+#: Terms of the final derivative lines above which they are not searched for shared partials.
+SHARED_PARTIALS_TERMS = 1000
+
+
 def _share_partials(lines: list, results: list) -> list:
     """The lines with the final derivative of each parameter moved to the end and written
     with common sub-expressions shared: the partials of chi (d chi / d Z, Z^2, ...) do not
@@ -458,6 +462,11 @@ def _share_partials(lines: list, results: list) -> list:
     rest = [(s, e) for s, e in lines if s not in finals]
     exprs = {s: e for s, e in lines if s in finals}
     order = [s for s in finals if s in exprs]
+    if sum(len(exprs[s].args) for s in order) > SHARED_PARTIALS_TERMS:
+        # Sums over thousands of pairs (a local operator on a large ring): sympy's cse orders
+        # every large sum to test its sign, minutes here; the partials are then written once
+        # per parameter instead.
+        return lines
     repl, reduced = sp.cse([exprs[s] for s in order], symbols=sp.numbered_symbols("_k"),
                            order="canonical")
     return rest + list(repl) + list(zip(order, reduced))
