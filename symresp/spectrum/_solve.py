@@ -48,6 +48,7 @@ from ._charpoly import factored_charpoly
 from ._implicit import BlockWeight, ImplicitBlock, weights_mp, weights_numpy
 from ._quadratic import Radical, Surd, bilinear
 from ._roots import LevelRoot, number_value, root_value
+from ._recouple import MultipletSector, Recoupling, recouple
 from ._symmetry import (SECTOR_NAMES, _sparse_fmpq, decompose_entries, find_symmetries,
                         split_block, transform, transform_blocks)
 
@@ -1137,6 +1138,72 @@ def _solve_symbolic(block: Block, Hb: dict, budget_max: int, clock: Clock | None
                          alpha_dens=tuple(alpha_dens))
 
 
+def _solve_recoupled(b: Block, rec: Recoupling, start: int, multiplets: dict,
+                     clock: Clock | None, max_symbolic_block: int, max_block: int,
+                     params: tuple[sp.Symbol, ...]) -> list[tuple[BlockSolution, dict]]:
+    """The total-spin sectors of block ``b`` solved (see :mod:`._recouple`).
+
+    In each sector H = sum_g g A_g + c M with the same rational A_g for every M of a family of
+    multiplets; where one parameter scales the A_g that are not multiples of 1, the family is
+    solved once (characteristic polynomial, projectors) and each M copy only gets its shift.
+    """
+    out = []
+    gauge = rec.gauges[b.index]
+    for k, ms in enumerate(rec.sectors[b.index]):
+        blk = Block(start + k, b.positions, b.labels + ms.labels, parent=b.index, sector=ms.sector)
+        if blk.size > max_block:
+            raise BudgetExceeded(
+                f"block {blk.index} ({blk.label_text()}) has {blk.size} states, above the "
+                f"limit {max_block} for exact solution; restrict to a sector or raise "
+                f"Budget(max_block=...)")
+        n = blk.size
+        shift = rec.zeeman * ms.M
+        rest = []
+        for g, A in ms.atoms:
+            c = _scalar_of(A)
+            if c is None:
+                rest.append((g, A))
+            else:
+                shift += g * c
+        if len(rest) <= 1:
+            hit = multiplets.get(ms.family)
+            if hit is None:
+                g, A = rest[0] if rest else (sp.Integer(1), flint.fmpq_mat(n, n))
+                Mq = {(i, j): Fraction(int(A[i, j].p), int(A[i, j].q))
+                      for i in range(n) for j in range(n) if A[i, j] != 0}
+                hit = multiplets[ms.family] = _solve_scaled(blk, sp.Integer(0), g, Mq, clock)
+            sol = replace(hit, block=blk, shift=sp.expand(shift), gauge=gauge)
+            out.append((sol, {}))
+        else:
+            Hs: dict[tuple[int, int], sp.Expr] = {}
+            for g, A in ms.atoms:
+                for i in range(n):
+                    for j in range(n):
+                        if A[i, j] != 0:
+                            Hs[(i, j)] = Hs.get((i, j), sp.Integer(0)) + g * _q(A[i, j])
+            for i in range(n):
+                Hs[(i, i)] = Hs.get((i, i), sp.Integer(0)) + rec.zeeman * ms.M
+            Hs = {key: v for key, v in ((key, sp.expand(v)) for key, v in Hs.items()) if v != 0}
+            sol = _solve_symbolic(blk, Hs, max_symbolic_block, clock, params)
+            sol = replace(sol, gauge=gauge,
+                          entries=tuple((i, j, v) for (i, j), v in sorted(Hs.items())))
+            out.append((sol, Hs))
+        if clock:
+            clock.check("solving blocks", f"block {blk.index}")
+    return out
+
+
+def _scalar_of(A: flint.fmpq_mat) -> sp.Rational | None:
+    """c when the square rational matrix A is c times the identity, else None."""
+    n = A.nrows()
+    c = A[0, 0]
+    for i in range(n):
+        for j in range(n):
+            if A[i, j] != (c if i == j else 0):
+                return None
+    return _q(c)
+
+
 def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int = 12,
           max_block: int = 400, symmetry: bool = True) -> Spectrum:
     """Exact spectrum of ``system`` (cached on the system).
@@ -1182,13 +1249,21 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
         bi, li = where[r]
         _, lj = where[c]
         local[bi][(li, lj)] = v
-    sym = find_symmetries(structure.basis, H) if symmetry else None
+    rec = recouple(system, structure) if symmetry else None
+    sym = find_symmetries(structure.basis, H) if symmetry and rec is None else None
     if clock and sym is not None:
         clock.check("symmetry sectors")
     sols: list[BlockSolution] = []
     matrices: list[dict] = []
     params = system.parameters
+    multiplets: dict = {}
     for b in structure.blocks:
+        if rec is not None:
+            for sol, Hs in _solve_recoupled(b, rec, len(sols), multiplets, clock,
+                                            max_symbolic_block, max_block, params):
+                sols.append(sol)
+                matrices.append(Hs)
+            continue
         Hb = local[b.index]
         gauge = _gauge(Hb, b.size)
         if gauge is not None:
