@@ -124,9 +124,43 @@ def sparse_form(op: Operator, basis: Basis, *, columns: Basis | None = None) -> 
     where = {s: i for i, s in enumerate(basis.sites)}
     fpos = tuple(i for i, s in enumerate(basis.sites) if s.is_fermion)
     row_index = basis.index()
-    out: SparseForm = {}
+    terms: dict[tuple[int, int], list[sp.Expr]] = {}
+    # Monomials of matrix units without a fermion sign act on every column state the same
+    # way: found for all columns at once with numpy (mixed-radix codes of the states).
+    plain, other = [], []
+    for mono, coeff in op.terms:
+        sites_of = [site for site, _ in mono]
+        if all(key[0] == "u" and not local_parity(site, key) for site, key in mono) and \
+                len(set(sites_of)) == len(sites_of):
+            plain.append((mono, coeff))
+        else:
+            other.append((mono, coeff))
+    if plain and cols.states and basis.states:
+        dims = [s.dim for s in basis.sites]
+        strides = np.array([math.prod(dims[p + 1:]) for p in range(len(dims))], dtype=np.int64)
+        C = np.array(cols.states, dtype=np.int64).reshape(len(cols.states), len(dims))
+        col_code = C @ strides
+        row_code = np.array(basis.states, dtype=np.int64).reshape(len(basis.states), len(dims)) @ strides
+        order = np.argsort(row_code)
+        sorted_codes = row_code[order]
+        for mono, coeff in plain:
+            mask = np.ones(len(col_code), dtype=bool)
+            shift = 0
+            for site, (_, i, j) in mono:
+                p = where[site]
+                mask &= C[:, p] == j
+                shift += (i - j) * int(strides[p])
+            cidx = np.flatnonzero(mask)
+            if not len(cidx):
+                continue
+            target = col_code[cidx] + shift
+            pos = np.searchsorted(sorted_codes, target)
+            pos[pos >= len(sorted_codes)] = 0
+            found = sorted_codes[pos] == target
+            for r, c in zip(order[pos[found]].tolist(), cidx[found].tolist()):
+                terms.setdefault((r, c), []).append(coeff)
     for c, state in enumerate(cols.states):
-        for mono, coeff in op.terms:
+        for mono, coeff in other:
             hit = _apply_monomial(mono, state, where, fpos)
             if hit is None:
                 continue
@@ -134,8 +168,13 @@ def sparse_form(op: Operator, basis: Basis, *, columns: Basis | None = None) -> 
             r = row_index.get(new_state)
             if r is None:
                 continue
-            out[(r, c)] = out.get((r, c), sp.Integer(0)) + coeff * factor
-    return {k: v for k, v in ((k, sp.expand(v)) for k, v in out.items()) if v != 0}
+            terms.setdefault((r, c), []).append(coeff * factor)
+    out: SparseForm = {}
+    for k in sorted(terms, key=lambda rc: (rc[1], rc[0])):
+        v = sp.expand(sp.Add(*terms[k]))
+        if v != 0:
+            out[k] = v
+    return out
 
 
 def to_sympy_matrix(op: Operator, basis: Basis) -> sp.Matrix:

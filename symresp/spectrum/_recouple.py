@@ -100,14 +100,17 @@ def _is_monomial_atom(atom: sp.Expr) -> bool:
 
 
 class _Rational:
-    """Sparse rational matrix on the product basis as {row: {col: Fraction}}."""
+    """Sparse rational matrix on the product basis: integers {row: {col: int}} over one
+    common denominator ``den`` (exact; integer arithmetic is what makes the commutators
+    cheap)."""
 
-    __slots__ = ("rows",)
+    __slots__ = ("rows", "den")
 
-    def __init__(self) -> None:
-        self.rows: dict[int, dict[int, Fraction]] = {}
+    def __init__(self, den: int = 1) -> None:
+        self.rows: dict[int, dict[int, int]] = {}
+        self.den = den
 
-    def add(self, r: int, c: int, v: Fraction) -> None:
+    def add(self, r: int, c: int, v: int) -> None:
         row = self.rows.setdefault(r, {})
         w = row.get(c, 0) + v
         if w:
@@ -120,24 +123,30 @@ class _Rational:
             for c, v in row.items():
                 yield r, c, v
 
-    def get(self, r: int, c: int):
+    def get(self, r: int, c: int) -> int:
         return self.rows.get(r, {}).get(c, 0)
 
+    def is_zero(self) -> bool:
+        return not any(self.rows.values())
 
-def _commutator(R: _Rational, X: _Rational, Xcols: dict[int, list[tuple[int, Fraction]]]
-                ) -> dict[tuple[int, int], Fraction]:
-    """[R, X] as a dict; ``Xcols`` is X by columns (col -> [(row, value)])."""
-    out: dict[tuple[int, int], Fraction] = {}
-    for r, k, v in R.items():
-        for c, w in X.rows.get(k, {}).items():          # (R X)[r, c] += R[r, k] X[k, c]
-            out[(r, c)] = out.get((r, c), 0) + v * w
-        for q, w in Xcols.get(r, ()):                   # (X R)[q, k] += X[q, r] R[r, k]
-            out[(q, k)] = out.get((q, k), 0) - w * v
+
+def _commutator(R: _Rational, X: _Rational, Xcols: dict[int, list[tuple[int, int]]]
+                ) -> dict[tuple[int, int], int]:
+    """den_R den_X [R, X] as integers; ``Xcols`` is X by columns (col -> [(row, value)])."""
+    out: dict[tuple[int, int], int] = {}
+    get = out.get
+    for r, row in R.rows.items():
+        xc = Xcols.get(r, ())
+        for k, v in row.items():
+            for c, w in X.rows.get(k, {}).items():      # (R X)[r, c] += R[r, k] X[k, c]
+                out[(r, c)] = get((r, c), 0) + v * w
+            for q, w in xc:                             # (X R)[q, k] += X[q, r] R[r, k]
+                out[(q, k)] = get((q, k), 0) - w * v
     return {key: v for key, v in out.items() if v}
 
 
-def _by_columns(X: _Rational) -> dict[int, list[tuple[int, Fraction]]]:
-    out: dict[int, list[tuple[int, Fraction]]] = {}
+def _by_columns(X: _Rational) -> dict[int, list[tuple[int, int]]]:
+    out: dict[int, list[tuple[int, int]]] = {}
     for r, c, v in X.items():
         out.setdefault(c, []).append((r, v))
     return out
@@ -151,7 +160,7 @@ def _block_matrix(R: _Rational, rows: list[int], cols: list[int]) -> flint.fmpq_
         for c, v in R.rows.get(p, {}).items():
             j = where.get(c)
             if j is not None:
-                out[i, j] = flint.fmpq(v.numerator, v.denominator)
+                out[i, j] = flint.fmpq(v, R.den)
     return out
 
 
@@ -206,7 +215,7 @@ def recouple(system: System, structure: BlockStructure) -> Recoupling | None:
     norms = [_site_norms(S, d) for S, d in zip(spins, dims)]
     where = {s: p for p, s in enumerate(sites)}
     # H in the rational basis, one sparse matrix per parameter monomial.
-    atoms: dict[sp.Expr, _Rational] = {}
+    found: dict[sp.Expr, list[tuple[list[int], int, Fraction]]] = {}
     for mono, coeff in H.terms:
         checkpoint("recoupling: the Hamiltonian in the rational basis")
         ratio = Fraction(1)
@@ -223,48 +232,57 @@ def recouple(system: System, structure: BlockStructure) -> Recoupling | None:
             mask &= K[:, p] == j
             shift += (i - j) * strides[p]
         g = sp.expand(coeff * sp.sqrt(sp.Rational(ratio.numerator, ratio.denominator)))
-        parts = g.as_coefficients_dict()
         cols = np.flatnonzero(mask).tolist()
-        for atom, c in parts.items():
+        for atom, c in g.as_coefficients_dict().items():
             if not c.is_Rational or not _is_monomial_atom(atom):
                 return None
-            R = atoms.setdefault(atom, _Rational())
-            v = Fraction(int(c.p), int(c.q))
+            found.setdefault(atom, []).append((cols, shift, Fraction(int(c.p), int(c.q))))
+    atoms: dict[sp.Expr, _Rational] = {}
+    for atom, terms in found.items():
+        R = _Rational(math.lcm(*(v.denominator for _, _, v in terms)))
+        for cols, shift, v in terms:
+            iv = int(v * R.den)
             for col in cols:
-                R.add(col + shift, col, v)
-    atoms = {g: R for g, R in atoms.items() if R.rows and any(R.rows.values())}
-    # Total S^+ and S^- in the same basis.
+                R.add(col + shift, col, iv)
+        if not R.is_zero():
+            atoms[atom] = R
+    # Total S^+ and S^- in the same basis (integers).
     Sp, Sm = _Rational(), _Rational()
     for p, (S, d) in enumerate(zip(spins, dims)):
         col = K[:, p]
         for st in np.flatnonzero(col > 0).tolist():
             k = int(col[st])
-            Sp.add(st - strides[p], st, Fraction(k) * (2 * S - k + 1))
+            Sp.add(st - strides[p], st, int(k * (2 * S - k + 1)))
         for st in np.flatnonzero(col < d - 1).tolist():
-            Sm.add(st + strides[p], st, Fraction(1))
+            Sm.add(st + strides[p], st, 1)
     Sp_cols, Sm_cols = _by_columns(Sp), _by_columns(Sm)
     ref = next(iter(Sp.items()))
     zeeman = sp.Integer(0)
     H0: dict[sp.Expr, _Rational] = {}
+    two_M = [int(2 * x) for x in Mval]
     for g, R in atoms.items():
+        # [R, S^+] = c_g S^+ and [R, S^-] = -c_g S^- (then R - c_g S^z commutes with the
+        # total spin), and R keeps S^z.
         checkpoint("recoupling: commutators with the total spin")
-        C = _commutator(R, Sp, Sp_cols)
-        cg = C.get((ref[0], ref[1]), Fraction(0)) / ref[2]
-        if any(C.get((r, c), 0) != cg * v for r, c, v in Sp.items()) or \
-                any(Sp.get(r, c) == 0 for r, c in C):
+        if any(two_M[r] != two_M[c] for r, c, _ in R.items()):
             return None
-        if any(Mval[r] != Mval[c] for r, c, _ in R.items()):
-            return None                       # changes S^z: not of the form H0 + c S^z
-        R0 = _Rational()
-        for r, c, v in R.items():
-            R0.add(r, c, v)
-        if cg:
-            for r in range(N):
-                R0.add(r, r, -cg * Mval[r])
-        if _commutator(R0, Sm, Sm_cols) or _commutator(R0, Sp, Sp_cols):
+        C = _commutator(R, Sp, Sp_cols)
+        cg = Fraction(C.get((ref[0], ref[1]), 0), ref[2] * R.den)
+        if any(Sp.get(r, c) == 0 for r, c in C) or any(Fraction(C.get((r, c), 0), R.den) != cg * v for r, c, v in Sp.items()):
+            return None
+        C = _commutator(R, Sm, Sm_cols)
+        if any(Fraction(C.get((r, c), 0), R.den) != -cg * v for r, c, v in Sm.items()) or \
+                any(Sm.get(r, c) == 0 for r, c in C):
             return None
         zeeman += g * sp.Rational(cg.numerator, cg.denominator)
-        if R0.rows and any(R0.rows.values()):
+        den = math.lcm(R.den, cg.denominator * 2)
+        R0 = _Rational(den)
+        for r, c, v in R.items():
+            R0.add(r, c, v * (den // R.den))
+        if cg:
+            for r in range(N):
+                R0.add(r, r, int(-cg * Mval[r] * den))
+        if not R0.is_zero():
             H0[g] = R0
     return _sectors(structure, sites, spins, dims, strides, K, Mval, norms, block_M, H0,
                     Sp, Sm, zeeman)
