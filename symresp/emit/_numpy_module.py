@@ -31,6 +31,7 @@ from ._correlation import (CORRELATION_RUNTIME, correlation_glue, correlation_pr
 from ._eigen import eigen_plan
 from ._inplace import inplace_body
 from ._plan import Plan, build_plan, fingerprint
+from ._multiplet_module import is_compact_derivation, multiplet_module_source
 from ._pole_module import ladder_module_source, motion_module_source
 from ._printers import ArrayPrinter, ConstantTable, ScalarPrinter
 from ._program import (Program, energies_program, freeze_plan, jacobian_program, omega_program,
@@ -482,6 +483,8 @@ def numpy_module_source(derivation: Derivation, *, name: str | None = None) -> s
         # Semi-closed blocks: every block diagonalised at the points, sums over state pairs.
         return block_module_source(derivation, name=name, version=symresp_version(),
                                    arguments=_signature_names)
+    if is_compact_derivation(derivation):
+        return multiplet_module_source(derivation, name=name, version=symresp_version())
     exact = build_plan(derivation)
     # Value functions diagonalise semi-closed blocks numerically (stable where their levels
     # nearly coincide); the Jacobian differentiates the exact weights through the roots.

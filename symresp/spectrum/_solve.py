@@ -1318,4 +1318,6 @@ def solve(system: System, *, clock: Clock | None = None, max_symbolic_block: int
     index = {(p.block, p.factor, p.root): i for i, p in enumerate(parts)}
     out = Spectrum(structure, tuple(sols), tuple(parts), index)
     system._memo[key] = out
+    if rec is not None:
+        system._memo["recoupled-spectrum"] = out     # read by the compact evaluator writer
     return out
