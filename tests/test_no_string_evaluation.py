@@ -36,6 +36,7 @@ REVIEWED = {
     "emit/_resonance.py": (4, "nsimplify of sympy numbers computed there"),
     "response/_motion.py": (5, "sympy objects built there"),
     "emit/_pole_module.py": (6, "sympy objects of a ladder or motion derivation"),
+    "emit/_multiplet_module.py": (1, "sympy objects of a derivation"),
     "spectrum/_ladder.py": (1, "sympy objects built there"),
     "response/_presentation.py": (10, "sympy objects of a derivation"),
     "response/_render.py": (1, "a sympy object or number from symresp"),
