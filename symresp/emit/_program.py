@@ -448,8 +448,20 @@ def _hoist_repeated(lines: list, func: type, prefix: str) -> list:
         for (s, e), found in zip(lines, calls)]
 
 
-#: Terms of the final derivative lines above which they are not searched for shared partials.
-SHARED_PARTIALS_TERMS = 1000
+#: Size (expression nodes) of the final derivative lines above which they are not searched for
+#: shared partials.
+SHARED_PARTIALS_NODES = 10000
+
+
+def _larger_than(exprs: list, limit: int) -> bool:
+    """Whether ``exprs`` hold more than ``limit`` nodes (counting stops at the limit)."""
+    n = 0
+    for e in exprs:
+        for _ in sp.preorder_traversal(e):
+            n += 1
+            if n > limit:
+                return True
+    return False
 
 
 def _share_partials(lines: list, results: list) -> list:
@@ -462,10 +474,10 @@ def _share_partials(lines: list, results: list) -> list:
     rest = [(s, e) for s, e in lines if s not in finals]
     exprs = {s: e for s, e in lines if s in finals}
     order = [s for s in finals if s in exprs]
-    if sum(len(exprs[s].args) for s in order) > SHARED_PARTIALS_TERMS:
+    if _larger_than([exprs[s] for s in order], SHARED_PARTIALS_NODES):
         # Sums over thousands of pairs (a local operator on a large ring): sympy's cse orders
-        # every large sum to test its sign, minutes here; the partials are then written once
-        # per parameter instead.
+        # every large sum to test its sign (minutes for the 8-site ring); the partials are then
+        # written once per parameter instead.
         return lines
     repl, reduced = sp.cse([exprs[s] for s in order], symbols=sp.numbered_symbols("_k"),
                            order="canonical")
