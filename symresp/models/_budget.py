@@ -180,13 +180,19 @@ class Clock:
     @staticmethod
     def is_fallback(err: BaseException, portion: Clock) -> bool:
         """True when ``err`` ends ``portion`` (and not the whole budget): fall back then."""
+        return Clock.owns(err, portion) and not (
+            portion.portion_of is not None and portion.portion_of.expired())
+
+    @staticmethod
+    def owns(err: BaseException, portion: Clock) -> bool:
+        """True when ``err`` is the end of ``portion`` or of a portion inside it (whether or
+        not the clock ``portion`` was taken from has ended too)."""
         if not isinstance(err, _PortionExceeded):
             return False
         owner = err.clock                   # a portion inside ``portion`` ends with it
         while owner is not None and owner is not portion:
             owner = owner.portion_of
-        return owner is portion and not (
-            portion.portion_of is not None and portion.portion_of.expired())
+        return owner is portion
 
     def __repr__(self) -> str:
         return f"Clock({self.budget.seconds:g} s, {self.remaining():.2f} s left, step={self.step[0]!r})"

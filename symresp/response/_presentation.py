@@ -698,8 +698,10 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
         Parameter values (sympy numbers) that order the levels; missing ones take a generic
         value (positive parameters of order one, sign-free ones small).
     clock : symresp.models.Clock, optional
-        When its deadline has passed, cheaper forms are used (population sums instead of closed
-        forms) and a note says so; presentation never fails for lack of time.
+        The presentation may use a share of its time; past it, cheaper forms are used
+        (population sums instead of closed forms) and a note says so. When ``clock`` is a
+        clock of its own inside a running call (a summary's few seconds), its end also leads
+        to the cheap forms; the end of the call's whole budget is an error.
 
     Returns
     -------
@@ -727,7 +729,8 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
         raise InputError(f"present_response: unknown quantity {bad[0]!r} (choose from "
                          f"{', '.join(PRESENTED_QUANTITIES)})")
     qs = tuple(q for q in PRESENTED_QUANTITIES if q in qs)
-    outer = clock if clock is not None else current_clock()
+    call = current_clock()
+    outer = clock if clock is not None else call
     if outer is None:
         return _present(d, qs, point, None, cheap=False)
     part = outer.portion(PRESENT_SHARE, "presenting the formulas")
@@ -735,7 +738,10 @@ def present_response(d: Derivation, quantities: tuple[str, ...] | list[str] = (
         with part.running():
             return _present(d, qs, point, part, cheap=False)
     except BudgetExceeded as err:
-        if not Clock.is_fallback(err, part):
+        # The presentation's share is up: the cheap forms follow, unless the whole budget is
+        # over (the running call's clock; ``clock`` itself when no other call runs).
+        whole = outer if call is None or call is outer else call
+        if not Clock.owns(err, part) or whole.expired():
             raise
     outer.note(CHEAP_NOTE)
     return _present(d, qs, point, None, cheap=True)

@@ -273,6 +273,22 @@ def test_an_exhausted_share_of_the_budget_gives_population_sums_and_a_note(monke
     assert abs(sp.N((p.value("frequency") - r.frequency()).subs(pt), 30)) < 1e-25
 
 
+def test_a_presentation_clock_of_its_own_that_ends_gives_the_population_sums():
+    # A clock given for the presentation alone (a summary's few seconds) is not the call's
+    # budget: when it ends, even before the first step, the cheap forms follow with a note.
+    import time
+    from symresp.models import Budget
+    q = sr.spin("q", HALF)
+    r = sr.Model(J * q.z + h * q.x).response(q.z)
+    own = Budget(seconds=0.001).start()
+    time.sleep(0.01)
+    with Budget(seconds=60).start().running():
+        p = present_response(r.derivation, ("isothermal", "frequency"), clock=own)
+    assert any("budget" in n for n in p.notes)
+    pt = {J: sp.Rational(1, 2), h: sp.Rational(1, 3), beta: 2}
+    assert abs(sp.N((p.value("isothermal") - r.static("isothermal")).subs(pt), 30)) < 1e-25
+
+
 def test_an_exhausted_whole_budget_is_an_error():
     from symresp.errors import BudgetExceeded
     from symresp.models import Budget
