@@ -103,7 +103,7 @@ def _text(err: BaseException) -> str:
     """str(err), which some exceptions of dask cannot always make."""
     try:
         return str(err)
-    except Exception:
+    except (TypeError, ValueError, AttributeError, KeyError, RecursionError):
         return repr(err.args)
 
 

@@ -116,19 +116,18 @@ def _semiw_a(U, V, offU, offV, nU, nV, L, R, TU, TV, real):
         arrays = numpy.broadcast_arrays(*[numpy.asarray(e) for e in entries])
         return numpy.stack(arrays, axis=-1).reshape(arrays[0].shape + (rows, cols))
 
-    Lm = mat(L, nU, nV)
-    if len(TU):
-        Lm = numpy.array(TU[1], dtype=float).reshape(nU, nU) @ Lm
-    if len(TV):
-        Lm = Lm @ numpy.array(TV[0], dtype=float).reshape(nV, nV)
-    X = numpy.conj(numpy.swapaxes(U, -1, -2)) @ Lm @ V
+    def between(entries, rows, cols, TL, TR):
+        """The operator's block (rows x cols) brought to the frame of the eigenvectors."""
+        m = mat(entries, rows, cols)
+        if len(TL):
+            m = numpy.array(TL[1], dtype=float).reshape(rows, rows) @ m
+        if len(TR):
+            m = m @ numpy.array(TR[0], dtype=float).reshape(cols, cols)
+        return m
+
+    X = numpy.conj(numpy.swapaxes(U, -1, -2)) @ between(L, nU, nV, TU, TV) @ V
     if len(R):
-        Rm = mat(R, nV, nU)
-        if len(TV):
-            Rm = numpy.array(TV[1], dtype=float).reshape(nV, nV) @ Rm
-        if len(TU):
-            Rm = Rm @ numpy.array(TU[0], dtype=float).reshape(nU, nU)
-        Y = numpy.conj(numpy.swapaxes(V, -1, -2)) @ Rm @ U
+        Y = numpy.conj(numpy.swapaxes(V, -1, -2)) @ between(R, nV, nU, TV, TU) @ U
         w = X * numpy.swapaxes(Y, -1, -2)
     else:
         w = X * numpy.eye(nU)

@@ -403,23 +403,21 @@ def weights_mp(X, Y, L, R, evaluate: Callable, dps: int, cache: dict | None = No
         pu, U, TU = _eig_mp(X, evaluate, dps, cache)
         pv, V, TV = (pu, U, TU) if Y == X else _eig_mp(Y, evaluate, dps, cache)
         nU, nV = X.n, Y.n
-        Lm = mpmath.matrix(nU, nV)
-        for i, j, v in L:
-            Lm[int(i), int(j)] = evaluate(v)
-        if TU:
-            Lm = TU[1] * Lm
-        if TV:
-            Lm = Lm * TV[0]
-        Xm = U.transpose_conj() * Lm * V
+
+        def between(entries, rows, cols, TL, TR):
+            """The operator's block (rows x cols) in the eigenbases' frame."""
+            m = mpmath.matrix(rows, cols)
+            for i, j, v in entries:
+                m[int(i), int(j)] = evaluate(v)
+            if TL:
+                m = TL[1] * m
+            if TR:
+                m = m * TR[0]
+            return m
+
+        Xm = U.transpose_conj() * between(L, nU, nV, TU, TV) * V
         if len(R):
-            Rm = mpmath.matrix(nV, nU)
-            for i, j, v in R:
-                Rm[int(i), int(j)] = evaluate(v)
-            if TV:
-                Rm = TV[1] * Rm
-            if TU:
-                Rm = Rm * TU[0]
-            Ym = V.transpose_conj() * Rm * U
+            Ym = V.transpose_conj() * between(R, nV, nU, TV, TU) * U
         out = []
         for a in pu:
             for b in pv:
