@@ -439,7 +439,8 @@ class _Builder:
                     *self.d.expect_B.values()]
         found: list[sp.Rational] = []
         for e in sources:
-            for r in sorted(sp.sympify(e).atoms(sp.Rational), key=abs):  # safe: sympy object
+            e = self._rooted(sp.sympify(e))  # safe: a sympy object from the derivation
+            for r in sorted(e.atoms(sp.Rational), key=abs):
                 if _long_number(r) and abs(r) not in found:
                     found.append(abs(r))
         for r in found:
@@ -462,10 +463,18 @@ class _Builder:
         out.update({R: sp.sqrt(X) for X, R in self.radicals.items()})
         return out
 
+    def _rooted(self, expr: sp.Expr) -> sp.Expr:
+        """``expr`` with its implicit roots replaced by their names."""
+        if not self.root_map:
+            return expr
+        # (the levels of a semi-closed weight sit inside its block, out of reach of has())
+        semi = expr.has(BlockWeight)
+        return expr.xreplace({r: s for r, s in self.root_map.items() if semi or expr.has(r)})
+
     def named(self, expr: sp.Expr) -> sp.Expr:
         """``expr`` with implicit roots, radicals and long constants replaced by their names."""
-        expr = sp.sympify(expr)  # safe: a sympy object from the derivation
-        if self.constants:
+        expr = self._rooted(sp.sympify(expr))  # safe: a sympy object from the derivation
+        if self.constants:           # (after the roots: the numbers inside a root stay there)
             rep = {}
             for r in expr.atoms(sp.Rational):
                 if _long_number(r):
@@ -473,10 +482,6 @@ class _Builder:
                     if m is not None:
                         rep[r] = m if r > 0 else -m
             expr = expr.xreplace(rep) if rep else expr
-        if self.root_map:
-            # (the levels of a semi-closed weight sit inside its block, out of reach of has())
-            semi = expr.has(BlockWeight)
-            expr = expr.xreplace({r: s for r, s in self.root_map.items() if semi or expr.has(r)})
         if not self.radicals:
             return expr
         rep = {}

@@ -131,7 +131,7 @@ from hypothesis import given, settings  # noqa: E402
 from hypothesis import strategies as st  # noqa: E402
 
 from symresp import numeric  # noqa: E402
-from symresp.response import MAX_LINE, present_response  # noqa: E402
+from symresp.response import MAX_LINE, present_response, presentation_text  # noqa: E402
 
 from ..conftest import ATOL_EXACT, RTOL_EXACT, assert_close  # noqa: E402
 from ..strategies import parameter_points, random_models  # noqa: E402
@@ -296,3 +296,18 @@ def test_an_exhausted_whole_budget_is_an_error():
     r = sr.Model(J * q.z + h * q.x).response(q.z)
     with pytest.raises(BudgetExceeded, match="presenting"):
         present_response(r.derivation, ("isothermal",), clock=Budget(seconds=1e-9).start())
+
+
+def test_implicit_levels_with_long_decimal_coefficients_are_printed_by_their_names():
+    # Decimals typed as g factors and couplings (1.987, 0.0137) make long exact numbers inside
+    # the roots of a parametric factor; the level table names the roots (r1_k), it does not
+    # print the root objects with those numbers renamed inside them.
+    s = sr.spin("s", sp.Rational(7, 2))
+    D, hx, hz = sp.Symbol("D", real=True), sp.Symbol("hx", real=True), sp.Symbol("hz", real=True)
+    g = sp.Rational(1987, 1000)
+    H = D * s.z**2 + sp.Rational(137, 10000) * (s.x**2 - s.y**2) - g * (hx * s.x + hz * s.z)
+    p = sr.Model(H).response(s.z).presented(["isothermal"])
+    roots = {d.symbol for d in p.definitions if d.kind == "root"}
+    assert len(p.levels) == 8 and all(row.energy in roots for row in p.levels)
+    text = "\n".join(presentation_text(p))
+    assert "LevelRoot(" not in text and max(map(len, text.splitlines())) < 200
